@@ -1,0 +1,153 @@
+"""`Response`: internal forces, reactions and displacements, the one result every engine returns.
+
+Sign convention (used everywhere in formfind, tables and plots included):
+
+- N (kN): axial force, **tension positive**; an arch in compression has N < 0.
+- V (kN): shear force, the resultant of all forces on the part of the arch to the left of the cut,
+  projected on the station normal n = (-sin theta, cos theta). For a horizontal beam this is the
+  usual "left reaction minus loads to the left".
+- M (kNm): bending moment, **positive when it causes tension on the intrados** (sagging); it equals
+  M0 - H y for a three-hinged arch under vertical loads (beam analogy).
+- Reactions (kN, kNm): forces of the supports on the arch, global x to the right, y upwards, moment
+  anticlockwise. The thrust H is the horizontal reaction at the left springing (positive pushing
+  the arch towards the right, i.e. inwards); for a tied arch it is the tie force.
+
+Arrays have load states along the first axis and stations along the last. ``N`` and ``V`` are the
+values just to the right of each station (at the right springing: just left); ``N_left`` and
+``V_left`` just to the left (at the left springing: just right). They differ only where a point
+load acts exactly at a station. M is continuous.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+
+@dataclass(frozen=True, eq=False)
+class Response:
+    """Internal forces of an arch under a set of load states.
+
+    Attributes:
+        names: name of each load state (states,).
+        groups: the load case or combination each state belongs to (states,).
+        x: station abscissae (m) (stations,).
+        N, V, M: internal forces (states, stations), kN and kNm, signs as the module says.
+        N_left, V_left: N and V just left of each station (states, stations), kN.
+        reactions: (states, 2 supports [left, right], 3 [Rx kN, Ry kN, Mz kNm]).
+        tie_force: tension in the tie (states,), kN; zeros where there is no tie.
+        displacements: (states, stations, 3 [ux m, uy m, rotation rad anticlockwise]) or None where
+            the engine does not compute them (exact statics).
+        engine: which engine produced it ("statics" or "frame").
+    """
+
+    names: tuple[str, ...]
+    groups: tuple[str, ...]
+    x: np.ndarray
+    N: np.ndarray
+    V: np.ndarray
+    M: np.ndarray
+    N_left: np.ndarray
+    V_left: np.ndarray
+    reactions: np.ndarray
+    tie_force: np.ndarray
+    displacements: np.ndarray | None
+    engine: str
+
+    @property
+    def count(self) -> int:
+        """Number of load states."""
+        return len(self.names)
+
+    @property
+    def thrust(self) -> np.ndarray:
+        """Horizontal thrust H per state (kN): left horizontal reaction, or the tie force if tied."""
+        return self.reactions[:, 0, 0] + self.tie_force
+
+    def select(self, states: list[int]) -> Response:
+        """A response holding only the given states, in the given order."""
+        idx = np.asarray(states, dtype=int)
+        disp = None if self.displacements is None else self.displacements[idx]
+        return Response(
+            names=tuple(self.names[i] for i in idx),
+            groups=tuple(self.groups[i] for i in idx),
+            x=self.x,
+            N=self.N[idx],
+            V=self.V[idx],
+            M=self.M[idx],
+            N_left=self.N_left[idx],
+            V_left=self.V_left[idx],
+            reactions=self.reactions[idx],
+            tie_force=self.tie_force[idx],
+            displacements=disp,
+            engine=self.engine,
+        )
+
+
+@dataclass(frozen=True)
+class Extreme:
+    """Where an effect is largest in magnitude: value (units of the effect), state and station."""
+
+    value: float
+    state: str
+    group: str
+    station: int
+    x_m: float
+
+
+def extreme(response: Response, effect: str, states: list[int] | None = None) -> Extreme:
+    """The largest-magnitude value of ``effect`` ('N', 'V' or 'M') over states and stations.
+
+    For N and V both sides of every station are searched.
+    """
+    idx = list(range(response.count)) if states is None else states
+    arrays = [getattr(response, effect)[idx]]
+    if effect in ("N", "V"):
+        arrays.append(getattr(response, effect + "_left")[idx])
+    best: tuple[float, int, int] | None = None
+    for arr in arrays:
+        if arr.size == 0:
+            continue
+        k, i = np.unravel_index(int(np.argmax(np.abs(arr))), arr.shape)
+        if best is None or abs(arr[k, i]) > abs(best[0]):
+            best = (float(arr[k, i]), int(k), int(i))
+    if best is None:
+        raise ValueError("no load states to search")
+    value, k, i = best
+    s = idx[k]
+    return Extreme(value, response.names[s], response.groups[s], i, float(response.x[i]))
+
+
+@dataclass(frozen=True)
+class GroupSummary:
+    """Extremes of one load case or combination over its states (a moving train has many).
+
+    ``thrust_kN`` is the thrust H of largest magnitude over the group's states.
+    """
+
+    group: str
+    states: int
+    thrust_kN: float
+    M: Extreme
+    N: Extreme
+    V: Extreme
+
+
+def summarise(response: Response) -> list[GroupSummary]:
+    """One `GroupSummary` per group, in the order the groups first appear."""
+    rows = []
+    for group in dict.fromkeys(response.groups):
+        idx = [i for i, g in enumerate(response.groups) if g == group]
+        thrust = response.thrust[idx]
+        rows.append(
+            GroupSummary(
+                group=group,
+                states=len(idx),
+                thrust_kN=float(thrust[int(np.argmax(np.abs(thrust)))]),
+                M=extreme(response, "M", idx),
+                N=extreme(response, "N", idx),
+                V=extreme(response, "V", idx),
+            )
+        )
+    return rows

@@ -1,0 +1,157 @@
+"""The command line: parse arguments, call the library, print a short summary, map errors to codes.
+
+Exit codes (also in the README):
+    0  success
+    1  internal error (a bug: please report it with the case file)
+    2  command-line usage error
+    3  the case file is missing or invalid
+    4  the analysis could not produce a trustworthy result (mechanism, failed verification)
+    5  an output could not be written, or would overwrite earlier outputs without --overwrite
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import os
+import sys
+from dataclasses import replace
+from pathlib import Path
+
+from formfind import __version__
+from formfind.errors import FormfindError
+
+EXIT_OK = 0
+EXIT_INTERNAL = 1
+CAUTION_LINE = (
+    "Caution: an aid to a qualified engineer; local codes and licensed practice govern; "
+    "example load factors are not code values."
+)
+ANALYSIS_FILES = ["analysis.json", "forces.csv", "reactions.csv", "summary.csv"]
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="formfind",
+        description="Find and check arch axes. Units: m, kN, kNm, degC.",
+        epilog="Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad case file, 4 analysis failed, "
+        "5 output not written.",
+    )
+    parser.add_argument("--version", action="version", version=f"formfind {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    p = sub.add_parser("validate", help="read and check a case file without running it")
+    p.add_argument("case", type=Path, help="case file (TOML)")
+    p.add_argument("-v", "--verbose", action="store_true", help="also list the defaults filled in")
+
+    for name, text in (
+        ("run", "the whole job on a case: analyse and write every output"),
+        ("analyse", "analyse the case's given axis under all cases and combinations"),
+    ):
+        p = sub.add_parser(name, help=text, description=text)
+        p.add_argument("case", type=Path, help="case file (TOML)")
+        p.add_argument("--out", type=Path, default=Path("outputs"),
+                       help="output folder; results go to OUT/<case name>/ (default: outputs)")
+        p.add_argument("--overwrite", action="store_true", help="replace earlier outputs of this case")
+        p.add_argument("--stations", type=int, default=None, help="override [stations] count")
+        p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+
+    sub.add_parser("keys", help="print the case-file key reference (Markdown)")
+    return parser
+
+
+def run_cli(argv: list[str] | None = None) -> int:
+    """Run formfind's command line; return the exit code."""
+    logging.basicConfig(level=logging.WARNING, format="formfind: %(levelname)s: %(message)s")
+    args = _parser().parse_args(argv)
+    try:
+        if args.command == "validate":
+            return _validate(args)
+        if args.command in ("run", "analyse"):
+            return _analyse(args)
+        if args.command == "keys":
+            from formfind.model.schema import reference_markdown
+
+            sys.stdout.write(reference_markdown())
+            return EXIT_OK
+    except FormfindError as exc:
+        print(f"formfind: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print("formfind: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # a bug: one line unless debugging
+        if os.environ.get("FORMFIND_DEBUG"):
+            raise
+        print(f"formfind: internal error: {type(exc).__name__}: {exc} (please report it; "
+              "set FORMFIND_DEBUG=1 for a traceback)", file=sys.stderr)
+        return EXIT_INTERNAL
+    return EXIT_INTERNAL  # pragma: no cover - argparse guarantees a known command
+
+
+def _load(args: argparse.Namespace):
+    from formfind.model.case import StationSettings, load_case
+    from formfind.model.schema import MAX_STATIONS
+
+    case = load_case(args.case)
+    stations = getattr(args, "stations", None)
+    if stations is not None:
+        if not 3 <= stations <= MAX_STATIONS:
+            from formfind.errors import CaseError
+
+            raise CaseError("--stations", "", f"expected 3..{MAX_STATIONS}, got {stations}")
+        case = replace(case, stations=StationSettings(stations, case.stations.spacing))
+    return case
+
+
+def _validate(args: argparse.Namespace) -> int:
+    case = _load(args)
+    states = sum(len(c.train.positions(case.geometry.span_m)) if c.train else 1 for c in case.cases)
+    print(
+        f"{args.case}: valid: {case.name}, {case.supports.kind.value}, {case.geometry.shape.value} "
+        f"span {case.geometry.span_m:g} m rise {case.geometry.rise_m:.4g} m, "
+        f"{len(case.cases)} load cases ({states} states), {len(case.combinations)} combinations, "
+        f"{case.stations.count} stations"
+    )
+    if args.verbose and case.defaults_used:
+        print("defaults filled in: " + ", ".join(case.defaults_used))
+    return EXIT_OK
+
+
+def _analyse(args: argparse.Namespace) -> int:
+    from formfind.analysis.engine import analyse
+    from formfind.output import files, tables
+
+    case = _load(args)
+    folder = Path(args.out) / files.safe_name(case.name)
+    files.prepare_folder(folder, ANALYSIS_FILES, args.overwrite)
+    result = analyse(case)
+    texts = {
+        "analysis.json": tables.analysis_json(result),
+        "forces.csv": tables.forces_csv(result),
+        "reactions.csv": tables.reactions_csv(result),
+        "summary.csv": tables.summary_csv(result),
+    }
+    for name, text in texts.items():
+        files.write_text(folder / name, text)
+    if not args.quiet:
+        _print_summary(result)
+        print(f"wrote {len(texts)} files to {folder}/")
+        print(CAUTION_LINE)
+    return EXIT_OK
+
+
+def _print_summary(result) -> None:
+    from formfind.analysis.response import summarise
+
+    case = result.case
+    print(f"{case.name}: {case.supports.kind.value} {case.geometry.shape.value}, span "
+          f"{result.axis.span_m:g} m, rise {result.axis.rise_m:.4g} m, {result.axis.count} stations, "
+          f"engine {result.cases.engine}")
+    header = f"{'set':<5} {'name':<22} {'H kN':>10} {'peak M kNm':>11} {'at x m':>7} " \
+             f"{'peak N kN':>10} {'at x m':>7} {'peak V kN':>10} {'at x m':>7}"
+    print(header)
+    for label, resp in (("case", result.cases), ("comb", result.combinations)):
+        for s in summarise(resp):
+            print(f"{label:<5} {s.group[:22]:<22} {s.thrust_kN:>10.1f} {s.M.value:>11.1f} "
+                  f"{s.M.x_m:>7.2f} {s.N.value:>10.1f} {s.N.x_m:>7.2f} {s.V.value:>10.1f} {s.V.x_m:>7.2f}")

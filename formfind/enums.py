@@ -1,0 +1,80 @@
+"""Options that drive a branch somewhere in formfind, gathered in one place.
+
+Each enum's ``value`` is the spelling used in case files.
+"""
+
+from __future__ import annotations
+
+from enum import StrEnum
+
+
+class SupportKind(StrEnum):
+    """How the arch is held at its springings (and whether it has a crown hinge)."""
+
+    THREE_HINGED = "three_hinged"  # pins at both springings and one internal hinge
+    TWO_HINGED = "two_hinged"  # pins at both springings
+    FIXED = "fixed"  # both springings fully fixed
+    TIED = "tied"  # pin at the left, roller at the right, an axial tie between the springings
+
+
+class ShapeKind(StrEnum):
+    """The family of a given arch axis."""
+
+    PARABOLA = "parabola"
+    CIRCLE = "circle"
+    CATENARY = "catenary"  # the hanging-chain curve through the springings and the crown
+    M_CURVE = "m_curve"  # the filled-spandrel catenary with a chosen load ratio m
+    POINTS = "points"  # a smooth cubic spline through given points
+
+
+class StationSpacing(StrEnum):
+    """How the stations are spread along the axis."""
+
+    X = "x"  # equal steps of horizontal distance
+    ARC = "arc"  # equal steps of arc length (better for high arches)
+
+
+class SectionVariation(StrEnum):
+    """How the rib's section varies along the axis."""
+
+    CONSTANT = "constant"
+    SECANT = "secant"  # A and I grow with sec(theta) from their crown values (classic assumption)
+    TAPERED = "tapered"  # rectangular rib, depth linear from crown to springings
+
+
+class ActionKind(StrEnum):
+    """The nature of a load case, used by combinations and checks."""
+
+    PERMANENT = "permanent"
+    VARIABLE = "variable"
+    ACCIDENTAL = "accidental"
+
+
+class LoadDirection(StrEnum):
+    """Direction of a line load or point load component."""
+
+    DOWN = "down"  # vertical, positive downwards
+    RIGHT = "right"  # horizontal, positive towards the right springing
+
+
+class Projection(StrEnum):
+    """What length a line load's intensity is measured per."""
+
+    HORIZONTAL = "horizontal"  # kN per metre of horizontal projection
+    VERTICAL = "vertical"  # kN per metre of vertical projection (e.g. wind on a rib)
+    ARC = "arc"  # kN per metre along the axis
+
+
+class FillReference(StrEnum):
+    """The surface below which fill depth is measured."""
+
+    EXTRADOS = "extrados"
+    AXIS = "axis"
+
+
+class TrainDirection(StrEnum):
+    """Which way a moving train of axles crosses the span."""
+
+    LEFT_TO_RIGHT = "left_to_right"
+    RIGHT_TO_LEFT = "right_to_left"
+    BOTH = "both"

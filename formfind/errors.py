@@ -1,0 +1,46 @@
+"""The kinds of failure formfind reports, each with its command-line exit code.
+
+Every error carries a complete one-line message; the command line prints it and exits with
+``exit_code``. Library callers catch the specific class.
+"""
+
+from __future__ import annotations
+
+
+class FormfindError(Exception):
+    """Base class of every error formfind raises on purpose."""
+
+    exit_code = 1
+
+
+class CaseError(FormfindError):
+    """A case file is missing, unreadable or invalid.
+
+    The message names the file, the key path (for example ``cases[2].loads[0].x_m``) and what was
+    expected.
+    """
+
+    exit_code = 3
+
+    def __init__(self, file: str, key: str, expected: str) -> None:
+        self.file = file
+        self.key = key
+        self.expected = expected
+        where = f"{file}: {key}" if key else file
+        super().__init__(f"{where}: {expected}")
+
+
+class AnalysisError(FormfindError):
+    """An analysis could not produce a trustworthy result.
+
+    Raised for mechanisms (an unstable support set), a failed verification after a solve (residual or
+    equilibrium outside tolerance), or an engine asked for an arch it cannot treat.
+    """
+
+    exit_code = 4
+
+
+class OutputError(FormfindError):
+    """An output could not be written, or would overwrite existing files without permission."""
+
+    exit_code = 5

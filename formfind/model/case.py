@@ -1,0 +1,410 @@
+"""Read a case file (TOML) into a validated, frozen `Case`.
+
+Nothing downstream sees raw dictionaries. Every error is a `CaseError` naming the file, the key path
+(``cases[1].loads[0].x_m``) and what was expected. The keys, units and defaults are declared in
+`formfind.model.schema` and listed in docs/case-file.md.
+
+Example:
+    >>> from formfind.model.case import load_case
+    >>> case = load_case("cases/footbridge.toml")        # doctest: +SKIP
+    >>> case.axis().count                                # doctest: +SKIP
+    101
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from formfind.enums import (
+    ActionKind,
+    FillReference,
+    LoadDirection,
+    Projection,
+    SectionVariation,
+    ShapeKind,
+    StationSpacing,
+    SupportKind,
+    TrainDirection,
+)
+from formfind.errors import CaseError
+from formfind.model import schema
+from formfind.model.geometry import (
+    Axis,
+    Chord,
+    CircularSegment,
+    Curve,
+    MCurve,
+    Parabola,
+    PointSpline,
+    catenary,
+    place_stations,
+)
+from formfind.model.loads import (
+    AxleTrain,
+    Combination,
+    FillLoad,
+    LineLoad,
+    Load,
+    LoadCase,
+    NormalPressure,
+    PointLoad,
+    SelfWeight,
+    SupportMovement,
+    Temperature,
+)
+from formfind.model.section import KN_M2_PER_MPA, Section
+
+MAX_FILE_BYTES = 1_000_000
+MAX_TRAIN_POSITIONS = 5000
+RISE_RATIO_RANGE = (0.01, 1.0)
+
+
+@dataclass(frozen=True)
+class Geometry:
+    """Span and axis family. Lengths in m; ``rise_m`` above the springing chord at midspan."""
+
+    span_m: float
+    rise_m: float
+    shape: ShapeKind
+    springing_left_m: float = 0.0
+    springing_right_m: float = 0.0
+    m: float | None = None
+    points_x_m: tuple[float, ...] = ()
+    points_y_m: tuple[float, ...] = ()
+
+    def curve(self) -> Curve:
+        """The smooth axis this geometry describes."""
+        if self.shape is ShapeKind.POINTS:
+            return PointSpline(self.points_x_m, self.points_y_m)
+        chord = Chord(self.span_m, self.springing_left_m, self.springing_right_m)
+        if self.shape is ShapeKind.PARABOLA:
+            return Parabola(chord, self.rise_m)
+        if self.shape is ShapeKind.CIRCLE:
+            return CircularSegment(chord, self.rise_m)
+        if self.shape is ShapeKind.CATENARY:
+            return catenary(chord, self.rise_m)
+        return MCurve(chord, self.rise_m, m=float(self.m))
+
+
+@dataclass(frozen=True)
+class Supports:
+    """Support system. ``hinge_x_m`` (m) for three-hinged arches; tie properties for tied arches."""
+
+    kind: SupportKind
+    hinge_x_m: float | None = None
+    tie_area_m2: float | None = None
+    tie_modulus_kN_m2: float | None = None
+
+
+@dataclass(frozen=True)
+class StationSettings:
+    """How many stations and how they are spaced."""
+
+    count: int = 101
+    spacing: StationSpacing = StationSpacing.X
+
+
+@dataclass(frozen=True)
+class Case:
+    """A validated case file.
+
+    Attributes:
+        name: short name, safe as a folder name.
+        source: the file it was read from ("" if built in code).
+        defaults_used: key paths that were not in the file and took their default.
+    """
+
+    name: str
+    title: str
+    description: str
+    geometry: Geometry
+    supports: Supports
+    section: Section
+    stations: StationSettings
+    cases: tuple[LoadCase, ...]
+    combinations: tuple[Combination, ...]
+    source: str = ""
+    defaults_used: tuple[str, ...] = ()
+
+    def curve(self) -> Curve:
+        """The smooth given axis."""
+        return self.geometry.curve()
+
+    def required_stations(self) -> tuple[float, ...]:
+        """Abscissae (m) that must be stations: the hinge and the ends of ranged loads."""
+        req: list[float] = []
+        if self.supports.kind is SupportKind.THREE_HINGED and self.supports.hinge_x_m is not None:
+            req.append(self.supports.hinge_x_m)
+        for lc in self.cases:
+            for ld in lc.loads:
+                if isinstance(ld, LineLoad):
+                    req += [ld.from_x_m, ld.to_x_m]
+                elif isinstance(ld, NormalPressure):
+                    req += [v for v in (ld.from_x_m, ld.to_x_m) if v is not None]
+        return tuple(req)
+
+    def axis(self, curve: Curve | None = None) -> Axis:
+        """The axis sampled at the case's stations; ``curve`` replaces the given axis if passed."""
+        curve = curve or self.curve()
+        x = place_stations(curve, self.stations.count, self.stations.spacing, self.required_stations())
+        return Axis.from_curve(curve, x)
+
+    def hinge_station(self, axis: Axis) -> int:
+        """Index of the station at the crown hinge of a three-hinged arch."""
+        xh = self.supports.hinge_x_m if self.supports.hinge_x_m is not None else 0.5 * axis.span_m
+        return int(np.argmin(np.abs(axis.x - xh)))
+
+
+# ------------------------------------------------------------------------------------- reading
+def load_case(path: str | Path) -> Case:
+    """Read and validate a case file.
+
+    Raises:
+        CaseError: if the file is missing, unreadable, too large, not UTF-8, not valid TOML, or
+            invalid in any key.
+    """
+    p = Path(path)
+    file = str(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise CaseError(file, "", "file not found") from None
+    except IsADirectoryError:
+        raise CaseError(file, "", "expected a case file, got a directory") from None
+    except OSError as exc:
+        raise CaseError(file, "", f"cannot be read ({exc.strerror})") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise CaseError(file, "", f"file is {len(raw)} bytes; case files are limited to {MAX_FILE_BYTES} bytes")
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise CaseError(file, "", f"not UTF-8 text (bad byte at offset {exc.start})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError(file, "", f"not valid TOML: {exc}") from None
+    return parse_case(data, file)
+
+
+def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
+    """Validate an already-parsed TOML document into a `Case`."""
+    top_names = [t.header for t in schema.TOP_TABLES]
+    for name in data:
+        if name not in top_names:
+            raise CaseError(file, name, f"unknown table{schema.suggest(name, top_names)}")
+    defaults: list[str] = []
+
+    def section(spec: schema.Table, required: bool = True) -> dict[str, Any]:
+        if spec.header not in data:
+            if required and any(k.required for k in spec.keys):
+                raise CaseError(file, spec.header, f"missing table [{spec.header}]")
+            table: dict[str, Any] = {}
+        else:
+            table = data[spec.header]
+        out = schema.read_table(table, spec, file, spec.header)
+        defaults.extend(
+            f"{spec.header}.{k.name} = {out[k.name].value if hasattr(out[k.name], 'value') else out[k.name]!r}"
+            for k in spec.keys
+            if k.name not in table and not k.required and k.default is not None
+        )
+        return out
+
+    meta = section(schema.CASE)
+    geometry = _geometry(section(schema.GEOMETRY), file)
+    supports = _supports(section(schema.SUPPORTS, required=False), geometry, file)
+    rib = _section(section(schema.SECTION), file)
+    stations = section(schema.STATIONS, required=False)
+    cases = _cases(data.get("cases"), geometry, file)
+    combinations = _combinations(data.get("combinations"), cases, file)
+    return Case(
+        name=meta["name"],
+        title=meta["title"],
+        description=meta["description"],
+        geometry=geometry,
+        supports=supports,
+        section=rib,
+        stations=StationSettings(stations["count"], stations["spacing"]),
+        cases=cases,
+        combinations=combinations,
+        source=file,
+        defaults_used=tuple(defaults),
+    )
+
+
+def _geometry(g: dict[str, Any], file: str) -> Geometry:
+    shape: ShapeKind = g["shape"]
+    span = g["span_m"]
+    if shape is ShapeKind.POINTS:
+        if g["rise_m"] is not None:
+            raise CaseError(file, "geometry.rise_m", "must not be given for shape = \"points\" (the points fix the rise)")
+        xs, ys = g["points_x_m"], g["points_y_m"]
+        if xs is None or ys is None:
+            raise CaseError(file, "geometry.points_x_m", "shape = \"points\" needs points_x_m and points_y_m")
+        if len(xs) != len(ys) or len(xs) < 3:
+            raise CaseError(file, "geometry.points_y_m", f"expected as many ordinates as abscissae (>= 3), got {len(ys)} and {len(xs)}")
+        if xs[0] != 0.0 or abs(xs[-1] - span) > 1e-9 * span or any(b <= a for a, b in zip(xs, xs[1:], strict=False)):
+            raise CaseError(file, "geometry.points_x_m", f"expected strictly increasing abscissae from 0 to the span {span:g} m")
+        chord = np.interp(xs, [0.0, span], [ys[0], ys[-1]])
+        rise = float(np.max(np.asarray(ys) - chord))
+        if g["springing_left_m"] != 0.0 or g["springing_right_m"] != 0.0:
+            raise CaseError(file, "geometry.springing_left_m", "must not be given for shape = \"points\" (the first and last points are the springings)")
+        geometry = Geometry(span, rise, shape, ys[0], ys[-1], None, xs, ys)
+    else:
+        if g["rise_m"] is None:
+            raise CaseError(file, "geometry.rise_m", "missing; expected the rise of the axis above the springing chord in m")
+        if shape is ShapeKind.M_CURVE and (g["m"] is None or not g["m"] > 1.0):
+            raise CaseError(file, "geometry.m", "shape = \"m_curve\" needs m > 1 (the springing/crown load ratio)")
+        rise = g["rise_m"]
+        if shape is ShapeKind.CIRCLE and rise > 0.5 * span * (1 + 1e-12):
+            raise CaseError(file, "geometry.rise_m", f"a circular arch rises at most half its span ({0.5 * span:g} m), got {rise:g} m")
+        geometry = Geometry(span, rise, shape, g["springing_left_m"], g["springing_right_m"], g["m"])
+    lo, hi = RISE_RATIO_RANGE
+    ratio = geometry.rise_m / span
+    if not lo <= ratio <= hi:
+        raise CaseError(file, "geometry.rise_m", f"rise/span = {ratio:.3g} is outside practice; expected {lo:g} to {hi:g}")
+    return geometry
+
+
+def _supports(s: dict[str, Any], geometry: Geometry, file: str) -> Supports:
+    kind: SupportKind = s["kind"]
+    span = geometry.span_m
+    hinge = s["hinge_x_m"]
+    if kind is SupportKind.THREE_HINGED:
+        hinge = 0.5 * span if hinge is None else hinge
+        if not 0.0 < hinge < span:
+            raise CaseError(file, "supports.hinge_x_m", f"expected a hinge strictly inside the span 0..{span:g} m, got {hinge:g}")
+    tie_e = None
+    if kind is SupportKind.TIED:
+        if s["tie_area_m2"] is None or s["tie_modulus_MPa"] is None:
+            raise CaseError(file, "supports.tie_area_m2", "a tied arch needs tie_area_m2 and tie_modulus_MPa")
+        tie_e = s["tie_modulus_MPa"] * KN_M2_PER_MPA
+    return Supports(kind, hinge, s["tie_area_m2"], tie_e)
+
+
+def _section(s: dict[str, Any], file: str) -> Section:
+    variation: SectionVariation = s["variation"]
+    area, inertia, width, depth = s["area_m2"], s["second_moment_m4"], s["width_m"], s["depth_m"]
+    if area is None and inertia is None and width is not None:
+        area, inertia = width * depth, width * depth**3 / 12.0
+    if area is None or inertia is None:
+        raise CaseError(file, "section.area_m2", "give area_m2 and second_moment_m4, or width_m for a solid rectangle")
+    if variation is SectionVariation.TAPERED and (width is None or s["springing_depth_m"] is None):
+        raise CaseError(file, "section.springing_depth_m", "a tapered rib needs width_m and springing_depth_m")
+    return Section(
+        area_m2=area,
+        second_moment_m4=inertia,
+        depth_m=depth,
+        elastic_modulus_kN_m2=s["elastic_modulus_MPa"] * KN_M2_PER_MPA,
+        unit_weight_kN_m3=s["unit_weight_kN_m3"],
+        thermal_expansion_per_C=s["thermal_expansion_per_C"],
+        variation=variation,
+        springing_depth_m=s["springing_depth_m"],
+        width_m=width,
+        shear_area_factor=s["shear_area_factor"],
+        poisson_ratio=s["poisson_ratio"],
+    )
+
+
+def _within(value: float, span: float, file: str, path: str) -> float:
+    if not -1e-9 * span <= value <= span * (1 + 1e-9):
+        raise CaseError(file, path, f"expected a position within the span 0..{span:g} m, got {value:g}")
+    return min(max(value, 0.0), span)
+
+
+def _load(table: Any, geometry: Geometry, file: str, path: str) -> Load:
+    if not isinstance(table, dict):
+        raise CaseError(file, path, f"expected a table, got {type(table).__name__}")
+    kind = table.get("type")
+    types = list(schema.LOAD_TYPES)
+    if kind is None:
+        raise CaseError(file, f"{path}.type", f"missing; expected one of {', '.join(types)}")
+    if kind not in schema.LOAD_TYPES:
+        hint = schema.suggest(kind, types) if isinstance(kind, str) else ""
+        raise CaseError(file, f"{path}.type", f"expected one of {', '.join(types)}, got {kind!r}{hint}")
+    v = schema.read_table(table, schema.LOAD_TYPES[kind], file, path, extra=("type",))
+    span = geometry.span_m
+    if kind == "point":
+        return PointLoad(_within(v["x_m"], span, file, f"{path}.x_m"), v["down_kN"], v["right_kN"])
+    if kind in ("line", "pressure"):
+        a = 0.0 if v["from_x_m"] is None else _within(v["from_x_m"], span, file, f"{path}.from_x_m")
+        b = span if v["to_x_m"] is None else _within(v["to_x_m"], span, file, f"{path}.to_x_m")
+        if not b > a:
+            raise CaseError(file, f"{path}.to_x_m", f"expected to_x_m greater than from_x_m ({a:g} m), got {b:g}")
+        if kind == "line":
+            end = v["start_kN_m"] if v["end_kN_m"] is None else v["end_kN_m"]
+            return LineLoad(a, b, v["start_kN_m"], end, LoadDirection(v["direction"]), Projection(v["per"]))
+        return NormalPressure(v["inward_kN_m"], a, b)
+    if kind == "self_weight":
+        return SelfWeight(v["factor"])
+    if kind == "fill":
+        if (v["surface_y_m"] is None) == (v["cover_m"] is None):
+            raise CaseError(file, f"{path}.surface_y_m", "give exactly one of surface_y_m and cover_m")
+        return FillLoad(v["unit_weight_kN_m3"], v["width_m"], v["surface_y_m"], v["cover_m"],
+                        FillReference(v["measured_to"]), v["surcharge_kPa"])
+    if kind == "temperature":
+        return Temperature(v["uniform_C"], v["difference_C"])
+    if kind == "support_movement":
+        return SupportMovement(v["spread_m"], v["settlement_left_m"], v["settlement_right_m"],
+                               v["rotation_left_rad"], v["rotation_right_rad"])
+    offsets, weights = v["offsets_m"], v["loads_kN"]
+    if len(offsets) != len(weights):
+        raise CaseError(file, f"{path}.loads_kN", f"expected one load per axle offset ({len(offsets)}), got {len(weights)}")
+    if offsets[0] != 0.0 or any(b < a for a, b in zip(offsets, offsets[1:], strict=False)):
+        raise CaseError(file, f"{path}.offsets_m", "expected offsets starting at 0 and never decreasing")
+    train = AxleTrain(offsets, weights, v["step_m"], TrainDirection(v["direction"]))
+    positions = len(train.positions(span))
+    if positions > MAX_TRAIN_POSITIONS:
+        raise CaseError(file, f"{path}.step_m", f"gives {positions} positions; at most {MAX_TRAIN_POSITIONS} are allowed (use a larger step)")
+    return train
+
+
+def _cases(raw: Any, geometry: Geometry, file: str) -> tuple[LoadCase, ...]:
+    if raw is None:
+        raise CaseError(file, "cases", "missing; expected at least one [[cases]] table")
+    if not isinstance(raw, list) or not raw:
+        raise CaseError(file, "cases", "expected at least one [[cases]] table")
+    out: list[LoadCase] = []
+    seen: set[str] = set()
+    for i, table in enumerate(raw):
+        path = f"cases[{i}]"
+        loads_raw = table.get("loads") if isinstance(table, dict) else None
+        head = schema.read_table(table, schema.CASES, file, path, extra=("loads",))
+        if head["name"] in seen:
+            raise CaseError(file, f"{path}.name", f"duplicate case name {head['name']!r}")
+        seen.add(head["name"])
+        if not isinstance(loads_raw, list) or not loads_raw:
+            raise CaseError(file, f"{path}.loads", "expected at least one [[cases.loads]] table")
+        loads = tuple(_load(t, geometry, file, f"{path}.loads[{j}]") for j, t in enumerate(loads_raw))
+        if sum(isinstance(ld, AxleTrain) for ld in loads) > 1:
+            raise CaseError(file, f"{path}.loads", "at most one axle_train per load case")
+        out.append(LoadCase(head["name"], loads, ActionKind(head["action"]), head["description"]))
+    return tuple(out)
+
+
+def _combinations(raw: Any, cases: tuple[LoadCase, ...], file: str) -> tuple[Combination, ...]:
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        raise CaseError(file, "combinations", "expected [[combinations]] tables")
+    names = [c.name for c in cases]
+    trains = {c.name for c in cases if c.train is not None}
+    out: list[Combination] = []
+    seen: set[str] = set()
+    for i, table in enumerate(raw):
+        path = f"combinations[{i}]"
+        v = schema.read_table(table, schema.COMBINATIONS, file, path)
+        if v["name"] in seen or v["name"] in names:
+            raise CaseError(file, f"{path}.name", f"duplicate name {v['name']!r} (combination names must differ from each other and from case names)")
+        seen.add(v["name"])
+        for case_name, _ in v["factors"]:
+            if case_name not in names:
+                raise CaseError(file, f"{path}.factors.{case_name}", f"unknown load case{schema.suggest(case_name, names)}; expected one of {', '.join(names)}")
+        if sum(c in trains for c, _ in v["factors"]) > 1:
+            raise CaseError(file, f"{path}.factors", "at most one moving-load (axle_train) case per combination")
+        out.append(Combination(v["name"], v["factors"], v["description"]))
+    return tuple(out)

@@ -1,0 +1,471 @@
+"""The case-file schema: every table and key, its type, unit, default and meaning.
+
+One declaration serves three purposes: `read_table` validates a TOML table against it (unknown keys,
+types, ranges, NaN/inf, "did you mean"), `reference_markdown` renders the key reference shipped as
+docs/case-file.md, and the defaults filled in are reported back to the user.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+from dataclasses import dataclass
+from enum import Enum
+from typing import Any
+
+from formfind.enums import (
+    ActionKind,
+    FillReference,
+    LoadDirection,
+    Projection,
+    SectionVariation,
+    ShapeKind,
+    StationSpacing,
+    SupportKind,
+    TrainDirection,
+)
+from formfind.errors import CaseError
+
+REQUIRED = object()
+NAME_PATTERN = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.+-]{0,63}$")
+MAX_STATIONS = 20001
+MAX_LIST = 10000
+
+
+@dataclass(frozen=True)
+class Key:
+    """One key of a table.
+
+    ``kind`` is one of: "number", "integer", "string", "name", "boolean", "numbers" (a list of
+    numbers), "factors" (an inline table of name = number), or an Enum class (a choice).
+    """
+
+    name: str
+    kind: Any
+    doc: str
+    unit: str = ""
+    default: Any = REQUIRED
+    minimum: float | None = None
+    maximum: float | None = None
+    positive: bool = False
+    when: tuple[str, tuple[str, ...]] | None = None  # (other key, values for which this key applies)
+
+    @property
+    def required(self) -> bool:
+        """True if the key has no default."""
+        return self.default is REQUIRED
+
+
+@dataclass(frozen=True)
+class Table:
+    """A table of the case file: its TOML header, what it is for, and its keys."""
+
+    header: str
+    doc: str
+    keys: tuple[Key, ...]
+    array: bool = False
+
+    def key(self, name: str) -> Key:
+        """The key called ``name``."""
+        return next(k for k in self.keys if k.name == name)
+
+
+def _choice_doc(enum: type[Enum]) -> str:
+    return " | ".join(f'"{m.value}"' for m in enum)
+
+
+CASE = Table(
+    "case",
+    "What the case is called and what it describes.",
+    (
+        Key("name", "name", "Short name; used for the output folder. Letters, digits, _ . + -"),
+        Key("title", "string", "One-line title for reports.", default=""),
+        Key("description", "string", "Free text describing the scenario.", default=""),
+    ),
+)
+
+GEOMETRY = Table(
+    "geometry",
+    "Span, rise, springing levels and the family of the given axis.",
+    (
+        Key("span_m", "number", "Horizontal distance between the springings.", "m", positive=True),
+        Key(
+            "rise_m",
+            "number",
+            "Height of the axis above the springing chord at midspan; rise/span must lie in 0.01..1.",
+            "m",
+            default=None,
+            positive=True,
+        ),
+        Key("shape", ShapeKind, "Family of the given axis.", default=ShapeKind.PARABOLA.value),
+        Key("springing_left_m", "number", "Level of the left springing.", "m", default=0.0),
+        Key("springing_right_m", "number", "Level of the right springing.", "m", default=0.0),
+        Key(
+            "m",
+            "number",
+            "Load ratio springing/crown of the m-curve (> 1).",
+            default=None,
+            minimum=1.0,
+            when=("shape", ("m_curve",)),
+        ),
+        Key(
+            "points_x_m",
+            "numbers",
+            "Abscissae of the points the axis passes through, from 0 to the span.",
+            "m",
+            default=None,
+            when=("shape", ("points",)),
+        ),
+        Key(
+            "points_y_m",
+            "numbers",
+            "Ordinates of those points (the first and last are the springing levels).",
+            "m",
+            default=None,
+            when=("shape", ("points",)),
+        ),
+    ),
+)
+
+SUPPORTS = Table(
+    "supports",
+    "How the arch is held.",
+    (
+        Key("kind", SupportKind, "Support system.", default=SupportKind.THREE_HINGED.value),
+        Key(
+            "hinge_x_m",
+            "number",
+            "Abscissa of the internal hinge; defaults to midspan.",
+            "m",
+            default=None,
+            when=("kind", ("three_hinged",)),
+        ),
+        Key(
+            "tie_area_m2",
+            "number",
+            "Cross-section area of the tie.",
+            "m2",
+            default=None,
+            positive=True,
+            when=("kind", ("tied",)),
+        ),
+        Key(
+            "tie_modulus_MPa",
+            "number",
+            "Elastic modulus of the tie.",
+            "MPa",
+            default=None,
+            positive=True,
+            when=("kind", ("tied",)),
+        ),
+    ),
+)
+
+SECTION = Table(
+    "section",
+    "The rib. Give area_m2 and second_moment_m4, or width_m for a solid rectangle; crown values "
+    "where the section varies.",
+    (
+        Key("variation", SectionVariation, "How the section varies along the axis.",
+            default=SectionVariation.CONSTANT.value),
+        Key("depth_m", "number", "Overall depth of the rib normal to the axis.", "m", positive=True),
+        Key("width_m", "number", "Breadth of a solid rectangular rib (A = b h, I = b h^3/12).", "m",
+            default=None, positive=True),
+        Key("area_m2", "number", "Cross-section area.", "m2", default=None, positive=True),
+        Key("second_moment_m4", "number", "Second moment of area about the bending axis.", "m4",
+            default=None, positive=True),
+        Key("springing_depth_m", "number", "Depth at the springings of a tapered rib.", "m",
+            default=None, positive=True, when=("variation", ("tapered",))),
+        Key("elastic_modulus_MPa", "number", "Young's modulus of the rib.", "MPa", positive=True),
+        Key("unit_weight_kN_m3", "number", "Weight density of the rib, for self-weight.", "kN/m3",
+            default=0.0, minimum=0.0),
+        Key("thermal_expansion_per_C", "number", "Coefficient of thermal expansion.", "1/degC",
+            default=1.2e-5, minimum=0.0),
+        Key("shear_area_factor", "number", "Shear area As = factor x A.", default=5.0 / 6.0,
+            positive=True, maximum=1.0),
+        Key("poisson_ratio", "number", "Poisson's ratio, for the shear modulus.", default=0.2,
+            minimum=0.0, maximum=0.5),
+    ),
+)
+
+STATIONS = Table(
+    "stations",
+    "Where the axis is sampled. The hinge and the ends of line loads always get a station.",
+    (
+        Key("count", "integer", f"Number of stations, 3..{MAX_STATIONS}.", default=101, minimum=3,
+            maximum=MAX_STATIONS),
+        Key("spacing", StationSpacing, "Equal steps in x or in arc length.",
+            default=StationSpacing.X.value),
+    ),
+)
+
+CASES = Table(
+    "cases",
+    "Load cases, one [[cases]] table each, holding a list of [[cases.loads]].",
+    (
+        Key("name", "name", "Unique name of the load case. Letters, digits, _ . + -"),
+        Key("action", ActionKind, "Nature of the action.", default=ActionKind.VARIABLE.value),
+        Key("description", "string", "Free text.", default=""),
+    ),
+    array=True,
+)
+
+COMBINATIONS = Table(
+    "combinations",
+    "Named linear combinations of load cases. The factors shipped in examples are examples only: "
+    "the governing code and its national annex give the real ones.",
+    (
+        Key("name", "name", "Unique name of the combination (distinct from case names)."),
+        Key("factors", "factors", "Inline table: case name = factor, e.g. { dead = 1.35, live = 1.5 }."),
+        Key("description", "string", "Free text.", default=""),
+    ),
+    array=True,
+)
+
+_X_FROM = Key("from_x_m", "number", "Start of the loaded length.", "m", default=None)
+_X_TO = Key("to_x_m", "number", "End of the loaded length.", "m", default=None)
+
+LOAD_TYPES: dict[str, Table] = {
+    "point": Table(
+        "cases.loads (type = \"point\")",
+        "A concentrated force on the axis.",
+        (
+            Key("x_m", "number", "Abscissa of the load, 0..span.", "m"),
+            Key("down_kN", "number", "Vertical component, downward positive.", "kN", default=0.0),
+            Key("right_kN", "number", "Horizontal component, positive to the right.", "kN", default=0.0),
+        ),
+    ),
+    "line": Table(
+        "cases.loads (type = \"line\")",
+        "A line load varying linearly from from_x_m to to_x_m (defaults: the whole span).",
+        (
+            _X_FROM,
+            _X_TO,
+            Key("start_kN_m", "number", "Intensity at from_x_m.", "kN/m"),
+            Key("end_kN_m", "number", "Intensity at to_x_m; defaults to start_kN_m.", "kN/m", default=None),
+            Key("direction", LoadDirection, "down: vertical, downward positive; right: horizontal.",
+                default=LoadDirection.DOWN.value),
+            Key("per", Projection, "Intensity per metre of horizontal projection, vertical projection, "
+                "or arc length.", default=Projection.HORIZONTAL.value),
+        ),
+    ),
+    "self_weight": Table(
+        "cases.loads (type = \"self_weight\")",
+        "The rib's own weight: unit_weight_kN_m3 x area per metre of axis.",
+        (Key("factor", "number", "Multiplier on the self-weight.", default=1.0),),
+    ),
+    "pressure": Table(
+        "cases.loads (type = \"pressure\")",
+        "A force normal to the axis per metre of axis, positive pushing from extrados to intrados.",
+        (Key("inward_kN_m", "number", "Intensity.", "kN/m"), _X_FROM, _X_TO),
+    ),
+    "fill": Table(
+        "cases.loads (type = \"fill\")",
+        "Vertical fill load growing with depth: width x (unit weight x depth + surcharge). "
+        "Give exactly one of surface_y_m and cover_m.",
+        (
+            Key("unit_weight_kN_m3", "number", "Weight density of the fill.", "kN/m3", positive=True),
+            Key("width_m", "number", "Breadth of fill carried by the rib.", "m", default=1.0, positive=True),
+            Key("surface_y_m", "number", "Level of the fill surface.", "m", default=None),
+            Key("cover_m", "number", "Depth of fill above the reference line at the crown.", "m",
+                default=None, minimum=0.0),
+            Key("measured_to", FillReference, "Depth measured down to the extrados or the axis.",
+                default=FillReference.EXTRADOS.value),
+            Key("surcharge_kPa", "number", "Uniform load on the fill surface.", "kPa", default=0.0),
+        ),
+    ),
+    "temperature": Table(
+        "cases.loads (type = \"temperature\")",
+        "Temperature change of the rib (forces only in indeterminate arches).",
+        (
+            Key("uniform_C", "number", "Uniform change.", "degC", default=0.0),
+            Key("difference_C", "number", "Extrados minus intrados temperature.", "degC", default=0.0),
+        ),
+    ),
+    "support_movement": Table(
+        "cases.loads (type = \"support_movement\")",
+        "Imposed movements of the springings (forces only in indeterminate arches).",
+        (
+            Key("spread_m", "number", "Increase of the span (right springing moves right).", "m", default=0.0),
+            Key("settlement_left_m", "number", "Downward movement of the left springing.", "m", default=0.0),
+            Key("settlement_right_m", "number", "Downward movement of the right springing.", "m", default=0.0),
+            Key("rotation_left_rad", "number", "Anticlockwise rotation of a fixed left springing.", "rad",
+                default=0.0),
+            Key("rotation_right_rad", "number", "Anticlockwise rotation of a fixed right springing.", "rad",
+                default=0.0),
+        ),
+    ),
+    "axle_train": Table(
+        "cases.loads (type = \"axle_train\")",
+        "Vertical axle loads moved across the span; every position is one load state.",
+        (
+            Key("offsets_m", "numbers", "Distance of each axle behind the leading one (first 0).", "m"),
+            Key("loads_kN", "numbers", "Axle loads, downward.", "kN"),
+            Key("step_m", "number", "Step of the leading axle between positions.", "m", positive=True),
+            Key("direction", TrainDirection, "Direction of travel.", default=TrainDirection.BOTH.value),
+        ),
+    ),
+}
+
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, CASES, COMBINATIONS)
+
+
+def _fail(file: str, path: str, expected: str) -> CaseError:
+    return CaseError(file, path, expected)
+
+
+def suggest(name: str, allowed: list[str]) -> str:
+    """ ' (did you mean "x"?)' for the closest allowed name, or ''."""
+    close = difflib.get_close_matches(name, allowed, n=1, cutoff=0.6)
+    return f' (did you mean "{close[0]}"?)' if close else ""
+
+
+def _number(value: Any, file: str, path: str, key: Key) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise _fail(file, path, f"expected a number{_unit(key)}, got {_describe(value)}")
+    value = float(value)
+    if not math.isfinite(value):
+        raise _fail(file, path, f"expected a finite number{_unit(key)}, got {value}")
+    _range(value, file, path, key)
+    return value
+
+
+def _range(value: float, file: str, path: str, key: Key) -> None:
+    if key.positive and not value > 0:
+        raise _fail(file, path, f"expected a positive number{_unit(key)}, got {value:g}")
+    if key.minimum is not None and value < key.minimum:
+        raise _fail(file, path, f"expected at least {key.minimum:g}{_unit(key)}, got {value:g}")
+    if key.maximum is not None and value > key.maximum:
+        raise _fail(file, path, f"expected at most {key.maximum:g}{_unit(key)}, got {value:g}")
+
+
+def _unit(key: Key) -> str:
+    return f" in {key.unit}" if key.unit else ""
+
+
+def _describe(value: Any) -> str:
+    text = repr(value)
+    if len(text) > 40:
+        text = text[:37] + "..."
+    return f"{type(value).__name__} {text}"
+
+
+def _convert(value: Any, key: Key, file: str, path: str) -> Any:
+    kind = key.kind
+    if isinstance(kind, type) and issubclass(kind, Enum):
+        allowed = [m.value for m in kind]
+        if not isinstance(value, str) or value not in allowed:
+            hint = suggest(value, allowed) if isinstance(value, str) else ""
+            raise _fail(file, path, f"expected one of {_choice_doc(kind)}, got {_describe(value)}{hint}")
+        return kind(value)
+    if kind == "number":
+        return _number(value, file, path, key)
+    if kind == "integer":
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise _fail(file, path, f"expected a whole number, got {_describe(value)}")
+        _range(float(value), file, path, key)
+        return int(value)
+    if kind in ("string", "name"):
+        if not isinstance(value, str):
+            raise _fail(file, path, f"expected a string, got {_describe(value)}")
+        if kind == "name" and not NAME_PATTERN.match(value):
+            raise _fail(
+                file, path,
+                f"expected a name of 1-64 letters, digits, _ . + - (starting with a letter or digit), got {value!r}",
+            )
+        return value
+    if kind == "boolean":
+        if not isinstance(value, bool):
+            raise _fail(file, path, f"expected true or false, got {_describe(value)}")
+        return value
+    if kind == "numbers":
+        if not isinstance(value, list) or not value:
+            raise _fail(file, path, f"expected a non-empty list of numbers{_unit(key)}, got {_describe(value)}")
+        if len(value) > MAX_LIST:
+            raise _fail(file, path, f"expected at most {MAX_LIST} numbers, got {len(value)}")
+        return tuple(_number(v, file, f"{path}[{i}]", key) for i, v in enumerate(value))
+    if kind == "factors":
+        if not isinstance(value, dict) or not value:
+            raise _fail(file, path, f"expected an inline table of case name = factor, got {_describe(value)}")
+        plain = Key(key.name, "number", key.doc)
+        return tuple((str(k), _number(v, file, f"{path}.{k}", plain)) for k, v in value.items())
+    raise ValueError(f"unknown key kind {kind!r}")  # a schema bug, not user input
+
+
+def read_table(table: Any, spec: Table, file: str, path: str, extra: tuple[str, ...] = ()) -> dict[str, Any]:
+    """Validate one TOML table against ``spec``; return its values with defaults filled in.
+
+    ``extra`` names keys handled by the caller (such as a load's ``type``), allowed but not read.
+
+    Raises:
+        CaseError: for a non-table, an unknown key (with a suggestion), a missing required key, a
+            wrong type, a value out of range, or a key that does not apply (``Key.when``).
+    """
+    if not isinstance(table, dict):
+        raise _fail(file, path, f"expected a table, got {_describe(table)}")
+    allowed = [k.name for k in spec.keys] + list(extra)
+    for name in table:
+        if name not in allowed:
+            raise _fail(file, f"{path}.{name}", f"unknown key{suggest(name, allowed)}")
+    out: dict[str, Any] = {}
+    for key in spec.keys:
+        kpath = f"{path}.{key.name}"
+        if key.name in table:
+            out[key.name] = _convert(table[key.name], key, file, kpath)
+        elif key.required:
+            raise _fail(file, kpath, f"missing; expected {key.doc[0].lower()}{key.doc[1:].rstrip('.')}{_unit(key)}")
+        else:
+            default = key.default
+            if isinstance(key.kind, type) and issubclass(key.kind, Enum) and default is not None:
+                default = key.kind(default)
+            out[key.name] = default
+    for key in spec.keys:
+        if key.when and key.name in table:
+            other, values = key.when
+            current = out.get(other)
+            current = current.value if isinstance(current, Enum) else current
+            if current not in values:
+                raise _fail(
+                    file, f"{path}.{key.name}",
+                    f"applies only when {other} = {' or '.join(repr(v) for v in values)}",
+                )
+    return out
+
+
+def reference_markdown() -> str:
+    """The case-file key reference as Markdown (shipped as docs/case-file.md)."""
+    lines = [
+        "# Case-file reference",
+        "",
+        "Generated from `formfind/model/schema.py` (`formfind keys` prints it). A case file is TOML.",
+        "Units are in the key names; unknown keys are errors. Coordinates: x to the right from the",
+        "left springing, y up (m). Loads in kN, kN/m, kPa; moments in kNm; temperatures in degC.",
+        "",
+    ]
+    for table in TOP_TABLES + tuple(LOAD_TYPES.values()):
+        header = f"[[{table.header}]]" if table.array else f"[{table.header}]"
+        if table.header.startswith("cases.loads"):
+            header = f"[[{table.header.split(' ', 1)[0]}]] {table.header.split(' ', 1)[1]}"
+        lines += [f"## {header}", "", table.doc, "", "| key | type | unit | default | meaning |",
+                  "|---|---|---|---|---|"]
+        for key in table.keys:
+            kind = _choice_doc(key.kind).replace(" | ", ", ") if isinstance(key.kind, type) else key.kind
+            if key.required:
+                default = "required"
+            elif key.default is None:
+                default = "(see meaning)"
+            else:
+                default = f"`{key.default!r}`".replace("'", '"')
+            meaning = key.doc
+            if key.when:
+                meaning += f" Only when {key.when[0]} = {' or '.join(key.when[1])}."
+            lines.append(f"| `{key.name}` | {kind} | {key.unit or '-'} | {default} | {meaning} |")
+        lines.append("")
+    lines += [
+        "Each `[[cases.loads]]` table has `type` = "
+        + ", ".join(f'"{v}"' for v in LOAD_TYPES)
+        + " and the keys of that type.",
+        "",
+    ]
+    return "\n".join(lines)

@@ -1,0 +1,102 @@
+"""The command line: happy paths, exit codes, one-line errors, no traceback, nothing half-written."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from formfind import __version__
+from formfind.cli import run_cli
+from tests.conftest import BASE_CASE, ROOT, run_formfind
+from tests.test_case import BAD
+
+CASE_ERROR = 3
+OUTPUT_ERROR = 5
+
+
+def _files_under(folder):
+    return sorted(p for p in folder.rglob("*") if p.is_file()) if folder.exists() else []
+
+
+@pytest.mark.parametrize(("label", "text", "key", "needle"), BAD, ids=[b[0] for b in BAD])
+def test_bad_case_files_exit_3_with_one_line_and_no_files(write_case, tmp_path, capsys, label, text, key, needle):
+    path = write_case(text)
+    out = tmp_path / "out"
+    code = run_cli(["run", str(path), "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == CASE_ERROR
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("formfind: error: ") and needle in lines[0], err
+    assert "Traceback" not in err
+    assert _files_under(out) == []
+
+
+@pytest.mark.parametrize("label", ["syntax", "unknown key", "nan", "load outside span", "unknown case in combination"])
+def test_bad_case_files_through_a_real_process(write_case, tmp_path, label):
+    text = next(b[1] for b in BAD if b[0] == label)
+    path = write_case(text)
+    out = tmp_path / "out"
+    proc = run_formfind("analyse", str(path), "--out", str(out))
+    assert proc.returncode == CASE_ERROR
+    assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
+    assert str(path) in proc.stderr
+    assert _files_under(out) == []
+
+
+def test_missing_file_through_a_real_process(tmp_path):
+    proc = run_formfind("validate", str(tmp_path / "absent.toml"))
+    assert proc.returncode == CASE_ERROR
+    assert "file not found" in proc.stderr and proc.stderr.count("\n") == 1
+
+
+def test_version_and_help():
+    proc = run_formfind("--version")
+    assert proc.returncode == 0 and __version__ in proc.stdout
+    for command in ("validate", "run", "analyse", "keys"):
+        proc = run_formfind(command, "--help")
+        assert proc.returncode == 0 and "usage" in proc.stdout
+
+
+def test_usage_error_exits_2():
+    proc = run_formfind("analyse")
+    assert proc.returncode == 2
+
+
+def test_default_case_runs_and_writes_results(tmp_path):
+    proc = run_formfind("run", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path))
+    assert proc.returncode == 0, proc.stderr
+    folder = tmp_path / "footbridge"
+    names = {p.name for p in _files_under(folder)}
+    assert {"analysis.json", "forces.csv", "reactions.csv", "summary.csv"} <= names
+    assert not [n for n in names if n.endswith(".part")]
+    data = json.loads((folder / "analysis.json").read_text())
+    assert data["case"] == "footbridge" and "caution" in data
+    assert "peak M kNm" in proc.stdout and "Caution" in proc.stdout
+    # a second run refuses to overwrite, a third with --overwrite succeeds
+    again = run_formfind("run", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path))
+    assert again.returncode == OUTPUT_ERROR and "--overwrite" in again.stderr
+    forced = run_formfind("run", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path), "--overwrite", "-q")
+    assert forced.returncode == 0 and forced.stdout == ""
+
+
+def test_validate_reports_defaults(write_case, capsys):
+    path = write_case(BASE_CASE)
+    assert run_cli(["validate", str(path), "-v"]) == 0
+    out = capsys.readouterr().out
+    assert "valid" in out and "stations.spacing = 'x'" in out
+
+
+def test_keys_prints_the_reference(capsys):
+    assert run_cli(["keys"]) == 0
+    assert "## [geometry]" in capsys.readouterr().out
+
+
+def test_outputs_are_deterministic(write_case, tmp_path):
+    path = write_case(BASE_CASE)
+    for out in ("a", "b"):
+        assert run_cli(["run", str(path), "--out", str(tmp_path / out), "-q"]) == 0
+    for name in ("analysis.json", "forces.csv", "reactions.csv", "summary.csv"):
+        a = (tmp_path / "a" / "small" / name).read_bytes()
+        b = (tmp_path / "b" / "small" / name).read_bytes()
+        assert a == b, name
