@@ -27,7 +27,8 @@ CAUTION_LINE = (
     "Caution: an aid to a qualified engineer; local codes and licensed practice govern; "
     "example load factors are not code values."
 )
-ANALYSIS_FILES = ["analysis.json", "forces.csv", "reactions.csv", "summary.csv"]
+ANALYSIS_FILES = ["analysis.json", "forces.csv", "reactions.csv", "summary.csv", "buckling.csv"]
+SUPPORT_CHOICES = ["three_hinged", "two_hinged", "fixed", "tied"]
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -54,6 +55,11 @@ def _parser() -> argparse.ArgumentParser:
                        help="output folder; results go to OUT/<case name>/ (default: outputs)")
         p.add_argument("--overwrite", action="store_true", help="replace earlier outputs of this case")
         p.add_argument("--stations", type=int, default=None, help="override [stations] count")
+        p.add_argument("--supports", choices=SUPPORT_CHOICES, default=None,
+                       help="analyse with this support system instead of the case file's")
+        p.add_argument("--no-buckling", action="store_true", help="skip the buckling analysis")
+        p.add_argument("--all-states", action="store_true",
+                       help="also write states.csv: N, V, M of every state (every train position)")
         p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
 
     sub.add_parser("keys", help="print the case-file key reference (Markdown)")
@@ -101,6 +107,19 @@ def _load(args: argparse.Namespace):
 
             raise CaseError("--stations", "", f"expected 3..{MAX_STATIONS}, got {stations}")
         case = replace(case, stations=StationSettings(stations, case.stations.spacing))
+    kind = getattr(args, "supports", None)
+    if kind is not None:
+        from formfind.enums import SupportKind
+        from formfind.errors import CaseError
+        from formfind.model.case import Supports
+
+        support = SupportKind(kind)
+        s = case.supports
+        if support is SupportKind.TIED and case.tie_EA_kN is None:
+            raise CaseError(str(args.case), "supports.tie_area_m2", "--supports tied needs tie_area_m2 and tie_modulus_MPa in the case file")
+        hinge = s.hinge_x_m if s.hinge_x_m is not None else 0.5 * case.geometry.span_m
+        case = replace(case, supports=Supports(support, hinge if support is SupportKind.THREE_HINGED else None,
+                                               s.tie_area_m2, s.tie_modulus_kN_m2))
     return case
 
 
@@ -124,14 +143,18 @@ def _analyse(args: argparse.Namespace) -> int:
 
     case = _load(args)
     folder = Path(args.out) / files.safe_name(case.name)
-    files.prepare_folder(folder, ANALYSIS_FILES, args.overwrite)
-    result = analyse(case)
+    names = ANALYSIS_FILES + (["states.csv"] if args.all_states else [])
+    files.prepare_folder(folder, names, args.overwrite)
+    result = analyse(case, buckling=False if args.no_buckling else None)
     texts = {
         "analysis.json": tables.analysis_json(result),
         "forces.csv": tables.forces_csv(result),
         "reactions.csv": tables.reactions_csv(result),
         "summary.csv": tables.summary_csv(result),
+        "buckling.csv": tables.buckling_csv(result),
     }
+    if args.all_states:
+        texts["states.csv"] = tables.states_csv(result)
     for name, text in texts.items():
         files.write_text(folder / name, text)
     if not args.quiet:
@@ -148,10 +171,17 @@ def _print_summary(result) -> None:
     print(f"{case.name}: {case.supports.kind.value} {case.geometry.shape.value}, span "
           f"{result.axis.span_m:g} m, rise {result.axis.rise_m:.4g} m, {result.axis.count} stations, "
           f"engine {result.cases.engine}")
+    factors = {b.state.split("@", 1)[0]: b.critical_factor for b in result.buckling}
     header = f"{'set':<5} {'name':<22} {'H kN':>10} {'peak M kNm':>11} {'at x m':>7} " \
-             f"{'peak N kN':>10} {'at x m':>7} {'peak V kN':>10} {'at x m':>7}"
+             f"{'peak N kN':>10} {'at x m':>7} {'peak V kN':>10} {'at x m':>7} {'buckling':>9}"
     print(header)
     for label, resp in (("case", result.cases), ("comb", result.combinations)):
         for s in summarise(resp):
+            lam = factors.get(s.group)
+            lam_text = "" if lam is None else ("none" if lam == float("inf") else f"{lam:.2f}")
             print(f"{label:<5} {s.group[:22]:<22} {s.thrust_kN:>10.1f} {s.M.value:>11.1f} "
-                  f"{s.M.x_m:>7.2f} {s.N.value:>10.1f} {s.N.x_m:>7.2f} {s.V.value:>10.1f} {s.V.x_m:>7.2f}")
+                  f"{s.M.x_m:>7.2f} {s.N.value:>10.1f} {s.N.x_m:>7.2f} {s.V.value:>10.1f} {s.V.x_m:>7.2f} "
+                  f"{lam_text:>9}")
+    if result.buckling:
+        print("buckling: factor on each combination at which the arch buckles in its plane "
+              "(linear elastic; loads keep their direction unless the case says otherwise)")

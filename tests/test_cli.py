@@ -100,3 +100,26 @@ def test_outputs_are_deterministic(write_case, tmp_path):
         a = (tmp_path / "a" / "small" / name).read_bytes()
         b = (tmp_path / "b" / "small" / name).read_bytes()
         assert a == b, name
+
+
+def test_supports_override_and_all_states(tmp_path, capsys):
+    case = str(ROOT / "cases" / "footbridge.toml")
+    assert run_cli(["analyse", case, "--out", str(tmp_path), "--supports", "fixed", "--all-states", "-q"]) == 0
+    folder = tmp_path / "footbridge"
+    data = json.loads((folder / "analysis.json").read_text())
+    assert data["cases"]["engine"] == "frame"
+    states = (folder / "states.csv").read_text().splitlines()
+    stations = len(data["axis"]["x_m"])
+    assert len(states) - 1 == stations * (len(data["cases"]["states"]) + len(data["combinations"]["states"]))
+    # the buckling table and the JSON hold the same factors
+    rows = (folder / "buckling.csv").read_text().splitlines()[1:]
+    first = {r.split(",")[0]: float(r.split(",")[3]) for r in rows}
+    for entry in data["buckling"]:
+        assert first[entry["state"].split("@")[0]] == entry["factors"][0]
+
+
+def test_tied_override_without_a_tie_is_a_case_error(tmp_path, capsys):
+    code = run_cli(["analyse", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path), "--supports", "tied"])
+    err = capsys.readouterr().err
+    assert code == CASE_ERROR and "tie_area_m2" in err and err.count("\n") == 1
+    assert _files_under(tmp_path) == []

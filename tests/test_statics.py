@@ -178,3 +178,21 @@ def test_hinge_on_the_springing_chord_is_a_mechanism():
     loads = case_station_loads(LoadCase("p", (PointLoad(3.0, down_kN=1.0),)), axis, _section(axis))
     with pytest.raises(AnalysisError, match="mechanism"):
         three_hinged(axis, loads, 5)
+
+
+def test_envelope_of_a_moving_train_equals_brute_force():
+    """The envelope over train positions equals the max/min over all states (common practice)."""
+    from formfind.analysis.response import envelope
+    from formfind.model.loads import AxleTrain
+
+    curve = Parabola(Chord(20.0), 4.0)
+    axis = Axis.from_curve(curve, place_stations(curve, 41))
+    train = AxleTrain((0.0, 1.5, 3.0), (30.0, 30.0, 20.0), step_m=0.25)
+    st_loads = case_station_loads(LoadCase("t", (train,)), axis, _section(axis))
+    r = three_hinged(axis, st_loads, 20)
+    env = envelope(r, "t")
+    np.testing.assert_array_equal(env.maximum[2], r.M.max(axis=0))
+    np.testing.assert_array_equal(env.minimum[2], r.M.min(axis=0))
+    np.testing.assert_array_equal(env.maximum[1], np.maximum(r.V, r.V_left).max(axis=0))
+    k = env.max_state[2, 10]
+    assert r.M[k, 10] == env.maximum[2, 10]

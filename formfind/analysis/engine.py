@@ -1,14 +1,20 @@
 """Analyse a case's axis under all its load cases and combinations with the right engine.
 
 The three-hinged arch goes to the exact statics engine; two-hinged, fixed and tied arches to the
-frame engine. Both return `Response` objects with the same signs and shapes.
+frame engine. Both return `Response` objects with the same signs and shapes. The frame model (with
+the crown hinge as a release for three-hinged arches) also gives the buckling factor of every
+combination.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from formfind.analysis import statics
+from formfind.analysis.buckling import BucklingResult, buckle
+from formfind.analysis.frame import FrameModel, build_frame, solve
 from formfind.analysis.response import Response
 from formfind.enums import SupportKind
 from formfind.errors import AnalysisError
@@ -20,10 +26,12 @@ from formfind.model.section import SectionAlong
 
 @dataclass(frozen=True, eq=False)
 class CaseAnalysis:
-    """The analysed case: its axis, section, station loads and responses.
+    """The analysed case: its axis, section, station loads, responses and buckling results.
 
     ``cases`` holds one state per load case (one per position for a moving train); ``combinations``
-    one per combination (likewise expanded).
+    one per combination (likewise expanded). ``buckling`` has one entry per combination, for its
+    state of largest thrust (the most compressed position of a moving train), or is empty when
+    buckling is switched off.
     """
 
     case: Case
@@ -32,20 +40,54 @@ class CaseAnalysis:
     loads: LoadSet
     cases: Response
     combinations: Response
+    buckling: tuple[BucklingResult, ...]
+    frame: FrameModel | None
 
 
-def respond(case: Case, axis: Axis, section: SectionAlong, loads: StationLoads) -> Response:
-    """The response of ``axis`` to ``loads`` under the case's supports."""
+def frame_model(case: Case, axis: Axis, section: SectionAlong) -> FrameModel:
+    """The frame model of ``axis`` with the case's supports (and crown hinge, if three-hinged)."""
     kind = case.supports.kind
-    if kind is SupportKind.THREE_HINGED:
+    hinge = case.hinge_station(axis) if kind is SupportKind.THREE_HINGED else None
+    if kind is SupportKind.TIED and case.tie_EA_kN is None:
+        raise AnalysisError("a tied arch needs [supports] tie_area_m2 and tie_modulus_MPa")
+    return build_frame(axis, section, kind, hinge, case.tie_EA_kN, case.analysis.shear_deformation)
+
+
+def respond(
+    case: Case, axis: Axis, loads: StationLoads, model: FrameModel | None, displacements: bool = False
+) -> Response:
+    """The response of ``axis`` to ``loads``: exact statics if three-hinged, else the frame model.
+
+    ``displacements`` asks the frame model for nodal displacements (a full solve); the exact
+    statics engine never gives them.
+    """
+    if case.supports.kind is SupportKind.THREE_HINGED:
         return statics.three_hinged(axis, loads, case.hinge_station(axis))
-    raise AnalysisError(
-        f"support kind {kind.value!r} needs the frame engine, which this version does not include yet"
-    )
+    if model is None:
+        raise AnalysisError(f"support kind {case.supports.kind.value!r} needs a frame model")
+    return solve(model, loads, displacements=displacements)
 
 
-def analyse(case: Case, axis: Axis | None = None) -> CaseAnalysis:
+def combination_buckling(case: Case, model: FrameModel, loads: StationLoads, response: Response) -> tuple[BucklingResult, ...]:
+    """Buckling of each combination, for its state of largest thrust."""
+    out = []
+    for group in dict.fromkeys(loads.groups):
+        states = [i for i, g in enumerate(loads.groups) if g == group]
+        state = states[int(np.argmax(response.thrust[states]))]
+        out.append(
+            buckle(model, loads, state, modes=case.analysis.buckling_modes,
+                   follow_axis=case.analysis.pressure_follows_axis)
+        )
+    return tuple(out)
+
+
+def analyse(
+    case: Case, axis: Axis | None = None, buckling: bool | None = None, displacements: bool = False
+) -> CaseAnalysis:
     """Analyse ``axis`` (default: the case's given axis) under every case and combination.
+
+    ``buckling`` overrides the case's ``[analysis] buckling`` setting; ``displacements`` asks the frame
+    model for nodal displacements (two-hinged, fixed and tied arches).
 
     Raises:
         AnalysisError: if the structure is a mechanism or a verification fails.
@@ -53,11 +95,17 @@ def analyse(case: Case, axis: Axis | None = None) -> CaseAnalysis:
     axis = axis if axis is not None else case.axis()
     section = case.section.at(axis)
     loads = build_load_set(case.cases, case.combinations, axis, section)
+    want_buckling = case.analysis.buckling if buckling is None else buckling
+    needs_frame = case.supports.kind is not SupportKind.THREE_HINGED or want_buckling
+    model = frame_model(case, axis, section) if needs_frame else None
+    combos = respond(case, axis, loads.combinations, model, displacements)
     return CaseAnalysis(
         case=case,
         axis=axis,
         section=section,
         loads=loads,
-        cases=respond(case, axis, section, loads.cases),
-        combinations=respond(case, axis, section, loads.combinations),
+        cases=respond(case, axis, loads.cases, model, displacements),
+        combinations=combos,
+        buckling=combination_buckling(case, model, loads.combinations, combos) if want_buckling and model else (),
+        frame=model,
     )

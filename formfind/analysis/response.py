@@ -151,3 +151,55 @@ def summarise(response: Response) -> list[GroupSummary]:
             )
         )
     return rows
+
+
+EFFECTS = ("N", "V", "M")
+
+
+@dataclass(frozen=True, eq=False)
+class Envelope:
+    """Largest and smallest N, V, M at every station over the states of one group.
+
+    Attributes:
+        group: the load case or combination.
+        states: names of the states enveloped (one, or one per position of a moving train).
+        maximum, minimum: (3 effects [N kN, V kN, M kNm], stations); N and V include both sides of
+            every station.
+        max_state, min_state: (3, stations) index into ``states`` of the governing state.
+    """
+
+    group: str
+    states: tuple[str, ...]
+    maximum: np.ndarray
+    minimum: np.ndarray
+    max_state: np.ndarray
+    min_state: np.ndarray
+
+
+def envelope(response: Response, group: str) -> Envelope:
+    """The envelope of ``group``'s states in ``response``."""
+    idx = [i for i, g in enumerate(response.groups) if g == group]
+    if not idx:
+        raise ValueError(f"no states of group {group!r}")
+    n = response.x.size
+    maximum = np.empty((3, n))
+    minimum = np.empty((3, n))
+    max_state = np.empty((3, n), dtype=int)
+    min_state = np.empty((3, n), dtype=int)
+    for e, name in enumerate(EFFECTS):
+        if name == "M":
+            hi = lo = response.M[idx]
+        else:
+            right, left = getattr(response, name)[idx], getattr(response, name + "_left")[idx]
+            hi = np.maximum(right, left)
+            lo = np.minimum(right, left)
+        max_state[e] = np.argmax(hi, axis=0)
+        min_state[e] = np.argmin(lo, axis=0)
+        maximum[e] = np.take_along_axis(hi, max_state[e][None], axis=0)[0]
+        minimum[e] = np.take_along_axis(lo, min_state[e][None], axis=0)[0]
+    return Envelope(group, tuple(response.names[i] for i in idx), maximum, minimum, max_state, min_state)
+
+
+def envelopes(response: Response) -> list[Envelope]:
+    """One `Envelope` per group, in the order the groups first appear."""
+    return [envelope(response, g) for g in dict.fromkeys(response.groups)]

@@ -110,6 +110,16 @@ class StationSettings:
 
 
 @dataclass(frozen=True)
+class AnalysisSettings:
+    """Options of the frame model and the buckling analysis (see `formfind.model.schema.ANALYSIS`)."""
+
+    shear_deformation: bool = False
+    buckling: bool = True
+    buckling_modes: int = 4
+    pressure_follows_axis: bool = False
+
+
+@dataclass(frozen=True)
 class Case:
     """A validated case file.
 
@@ -128,8 +138,17 @@ class Case:
     stations: StationSettings
     cases: tuple[LoadCase, ...]
     combinations: tuple[Combination, ...]
+    analysis: AnalysisSettings = AnalysisSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
+
+    @property
+    def tie_EA_kN(self) -> float | None:
+        """Axial stiffness of the tie (kN), for tied arches."""
+        s = self.supports
+        if s.tie_area_m2 is None or s.tie_modulus_kN_m2 is None:
+            return None
+        return s.tie_area_m2 * s.tie_modulus_kN_m2
 
     def curve(self) -> Curve:
         """The smooth given axis."""
@@ -219,6 +238,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     supports = _supports(section(schema.SUPPORTS, required=False), geometry, file)
     rib = _section(section(schema.SECTION), file)
     stations = section(schema.STATIONS, required=False)
+    settings = section(schema.ANALYSIS, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     return Case(
@@ -231,6 +251,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         stations=StationSettings(stations["count"], stations["spacing"]),
         cases=cases,
         combinations=combinations,
+        analysis=AnalysisSettings(**settings),
         source=file,
         defaults_used=tuple(defaults),
     )

@@ -18,8 +18,6 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
-from scipy.interpolate import CubicHermiteSpline, CubicSpline
-from scipy.optimize import brentq
 
 from formfind.enums import StationSpacing
 
@@ -166,6 +164,8 @@ def catenary(chord: Chord, rise_m: float) -> MCurve:
 
     Solves (cosh k - 1)/(2 k) = f / L for k = L / (2 a) and returns it as the m-curve with m = cosh k.
     """
+    from scipy.optimize import brentq  # imported here: scipy.optimize is slow to import
+
     ratio = rise_m / chord.span_m
     k = brentq(lambda kk: (np.cosh(kk) - 1.0) / (2.0 * kk) - ratio, 1e-9, 60.0, xtol=1e-15)
     return MCurve(chord=chord, rise_m=rise_m, m=float(np.cosh(k)))
@@ -192,7 +192,9 @@ class PointSpline(Curve):
         object.__setattr__(self, "chord", Chord(float(x[-1]), float(y[0]), float(y[-1])))
 
     @cached_property
-    def _spline(self) -> CubicSpline:
+    def _spline(self):
+        from scipy.interpolate import CubicSpline  # imported here: scipy.interpolate is slow to import
+
         bc = "not-a-knot" if len(self.x_m) > 3 else "natural"
         return CubicSpline(np.asarray(self.x_m), np.asarray(self.y_m), bc_type=bc)
 
@@ -336,6 +338,8 @@ class Axis:
 
         Where a tangent is vertical (semicircle springing) the slope is capped for interpolation.
         """
+        from scipy.interpolate import CubicHermiteSpline
+
         x_new = np.asarray(x_new, dtype=float)
         slope = np.clip(self.slope, -1e6, 1e6)
         spline = CubicHermiteSpline(self.x, self.y, slope)

@@ -200,6 +200,20 @@ STATIONS = Table(
     ),
 )
 
+ANALYSIS = Table(
+    "analysis",
+    "Options of the frame model and the buckling analysis.",
+    (
+        Key("shear_deformation", "boolean", "Include shear deformation in the frame elements.", default=False),
+        Key("buckling", "boolean", "Compute the in-plane buckling factor of every combination.", default=True),
+        Key("buckling_modes", "integer", "Number of buckling modes to find, 1..20.", default=4, minimum=1,
+            maximum=20),
+        Key("pressure_follows_axis", "boolean",
+            "Treat distributed loads as pressure that stays normal to the deflected axis when buckling "
+            "(false: loads keep their direction, as gravity loads do).", default=False),
+    ),
+)
+
 CASES = Table(
     "cases",
     "Load cases, one [[cases]] table each, holding a list of [[cases.loads]].",
@@ -308,7 +322,7 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, CASES, COMBINATIONS)
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, CASES, COMBINATIONS)
 
 
 def _fail(file: str, path: str, expected: str) -> CaseError:

@@ -18,7 +18,7 @@ import numpy as np
 
 from formfind import __version__
 from formfind.analysis.engine import CaseAnalysis
-from formfind.analysis.response import Response, summarise
+from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
 
 SIGN_CONVENTION = (
     "x right from the left springing, y up (m). N tension positive (arch compression is negative). "
@@ -44,6 +44,10 @@ def to_jsonable(obj: Any) -> Any:
     if isinstance(obj, Enum):
         return obj.value
     if isinstance(obj, np.ndarray):
+        if obj.dtype.kind in "fiub":
+            if obj.dtype.kind == "f" and not np.all(np.isfinite(obj)):
+                raise ValueError("a non-finite number cannot be written to JSON")
+            return obj.tolist()
         return to_jsonable(obj.tolist())
     if isinstance(obj, np.generic):
         return to_jsonable(obj.item())
@@ -58,21 +62,29 @@ def to_jsonable(obj: Any) -> Any:
     return obj
 
 
-def dumps(data: Any) -> str:
-    """Deterministic JSON text (two-space indent, trailing newline)."""
-    return json.dumps(to_jsonable(data), indent=2, allow_nan=False) + "\n"
+def dumps(data: Any, indent: int | None = None) -> str:
+    """Deterministic JSON text with a trailing newline (compact unless ``indent`` is given)."""
+    return json.dumps(to_jsonable(data), indent=indent, allow_nan=False) + "\n"
 
 
 def _response_json(r: Response) -> dict[str, Any]:
+    """Per group: the envelope of N, V, M along the axis; per state: thrust and reactions."""
+    groups = []
+    for env in envelopes(r):
+        entry: dict[str, Any] = {"name": env.group, "states": list(env.states)}
+        for e, effect in enumerate(EFFECTS):
+            unit = "kNm" if effect == "M" else "kN"
+            entry[f"{effect}_max_{unit}"] = env.maximum[e]
+            entry[f"{effect}_min_{unit}"] = env.minimum[e]
+            if len(env.states) > 1:
+                entry[f"{effect}_max_state"] = env.max_state[e]
+                entry[f"{effect}_min_state"] = env.min_state[e]
+        groups.append(entry)
     return {
         "engine": r.engine,
+        "groups": groups,
         "states": list(r.names),
-        "groups": list(r.groups),
-        "N_kN": r.N,
-        "V_kN": r.V,
-        "M_kNm": r.M,
-        "N_left_kN": r.N_left,
-        "V_left_kN": r.V_left,
+        "state_groups": list(r.groups),
         "thrust_kN": r.thrust,
         "reactions_left_kN_kN_kNm": r.reactions[:, 0, :],
         "reactions_right_kN_kN_kNm": r.reactions[:, 1, :],
@@ -104,6 +116,15 @@ def analysis_json(analysis: CaseAnalysis) -> str:
             },
             "cases": _response_json(analysis.cases),
             "combinations": _response_json(analysis.combinations),
+            "buckling": [
+                {
+                    "state": b.state,
+                    "factors": [float(f) for f in b.factors],
+                    "symmetry": list(b.symmetry),
+                    "loads_follow_axis": b.follow_axis,
+                }
+                for b in analysis.buckling
+            ],
         }
     )
 
@@ -123,17 +144,55 @@ def _fmt(v: Any) -> Any:
     return v
 
 
+def _rows_csv(header: list[str], text_cols: list[list[Any]], numbers: np.ndarray) -> str:
+    """CSV from leading text/integer columns and a float block (rows, columns), shortest repr."""
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow(header)
+    formatted = [list(map(repr, numbers[:, j].tolist())) for j in range(numbers.shape[1])]
+    texts = [list(map(str, col)) for col in text_cols]
+    buf.write("\n".join(map(",".join, zip(*texts, *formatted, strict=True))))
+    buf.write("\n")
+    return buf.getvalue()
+
+
 def forces_csv(analysis: CaseAnalysis) -> str:
-    """Long table: one row per set, state and station, with N, V, M on both sides."""
+    """Per case and combination, at every station: max and min of N, V, M and the governing state.
+
+    A group with one state has max = min = its value (N and V: the larger and smaller of the two
+    sides of the station). A moving train's group envelopes all its positions.
+    """
     axis = analysis.axis
-    rows: list[list[Any]] = []
+    n = axis.count
+    text_cols: list[list[Any]] = [[], [], [], [], []]
+    blocks = []
+    for label, r in (("case", analysis.cases), ("combination", analysis.combinations)):
+        for env in envelopes(r):
+            m_max = [env.states[k] for k in env.max_state[2]]
+            m_min = [env.states[k] for k in env.min_state[2]]
+            for col, values in zip(text_cols, ([label] * n, [env.group] * n, list(range(n)), m_max, m_min), strict=True):
+                col.extend(values)
+            blocks.append(np.column_stack([axis.x, axis.y, env.maximum[0], env.minimum[0], env.maximum[1],
+                                           env.minimum[1], env.maximum[2], env.minimum[2]]))
+    numbers = np.vstack(blocks) if blocks else np.zeros((0, 8))
+    header = ["set", "group", "station", "M_max_state", "M_min_state", "x_m", "y_m", "N_max_kN", "N_min_kN",
+              "V_max_kN", "V_min_kN", "M_max_kNm", "M_min_kNm"]
+    return _rows_csv(header, text_cols, numbers)
+
+
+def states_csv(analysis: CaseAnalysis) -> str:
+    """Long table of every state (each train position): N, V, M on both sides at every station."""
+    axis = analysis.axis
+    n = axis.count
+    text_cols: list[list[Any]] = [[], [], [], []]
+    blocks = []
     for label, r in (("case", analysis.cases), ("combination", analysis.combinations)):
         for k in range(r.count):
-            for i in range(axis.count):
-                rows.append([label, r.groups[k], r.names[k], i, axis.x[i], axis.y[i],
-                             r.N[k, i], r.V[k, i], r.M[k, i], r.N_left[k, i], r.V_left[k, i]])
-    return _csv(["set", "group", "state", "station", "x_m", "y_m", "N_kN", "V_kN", "M_kNm",
-                 "N_left_kN", "V_left_kN"], rows)
+            for col, values in zip(text_cols, ([label] * n, [r.groups[k]] * n, [r.names[k]] * n, list(range(n))), strict=True):
+                col.extend(values)
+            blocks.append(np.column_stack([axis.x, axis.y, r.N[k], r.V[k], r.M[k], r.N_left[k], r.V_left[k]]))
+    numbers = np.vstack(blocks) if blocks else np.zeros((0, 7))
+    header = ["set", "group", "state", "station", "x_m", "y_m", "N_kN", "V_kN", "M_kNm", "N_left_kN", "V_left_kN"]
+    return _rows_csv(header, text_cols, numbers)
 
 
 def reactions_csv(analysis: CaseAnalysis) -> str:
@@ -157,3 +216,18 @@ def summary_csv(analysis: CaseAnalysis) -> str:
                          s.V.value, s.V.x_m, s.V.state])
     return _csv(["set", "group", "states", "thrust_kN", "peak_M_kNm", "peak_M_x_m", "peak_M_state",
                  "peak_N_kN", "peak_N_x_m", "peak_N_state", "peak_V_kN", "peak_V_x_m", "peak_V_state"], rows)
+
+
+def buckling_csv(analysis: CaseAnalysis) -> str:
+    """One row per combination: the state buckled and its first load factors with mode symmetry."""
+    modes = max((b.factors.size for b in analysis.buckling), default=0)
+    header = ["combination", "state", "loads_follow_axis"]
+    for m in range(modes):
+        header += [f"factor_{m + 1}", f"mode_{m + 1}"]
+    rows: list[list[Any]] = []
+    for b in analysis.buckling:
+        row: list[Any] = [b.state.split("@", 1)[0], b.state, b.follow_axis]
+        for m in range(modes):
+            row += [float(b.factors[m]), b.symmetry[m]] if m < b.factors.size else ["", ""]
+        rows.append(row)
+    return _csv(header, rows)

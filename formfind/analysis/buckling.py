@@ -1,0 +1,214 @@
+"""Linear in-plane buckling of an arch: load factors and mode shapes.
+
+For a reference load state, a linear solve gives the element axial forces N_e; the geometric
+stiffness K_G(N) of the beam-column elements then defines the eigenproblem
+
+    (K + lambda (K_G + K_L)) phi = 0,
+
+whose smallest positive lambda is the factor on the reference load at which the arch buckles.
+
+Loads either keep their direction while the arch deflects (``follow_axis=False``, the default:
+gravity loads) or, for distributed pressure normal to the axis, stay normal to the deflected axis
+(``follow_axis=True``, hydrostatic or radial pressure). The second adds the load stiffness K_L of the
+pressure densities. The classic circular-arch results (Timoshenko & Gere, *Theory of Elastic
+Stability*, ch. 7) assume pressure normal to the deformed axis; a model whose loads keep their
+direction gives noticeably higher factors, so compare like with like.
+
+Solved as mu = 1 / lambda of  -(K_G + K_L) phi = mu K phi  with K positive definite, by ARPACK's
+generalised symmetric mode on the free dofs (K factorised once); the largest mu give the smallest
+positive lambda, and a negative mu (a factor that would need the loads reversed) is discarded.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.linalg import ArpackNoConvergence, eigsh
+
+from formfind.analysis.frame import FrameModel, rotation_matrices, solve
+from formfind.analysis.statics import cut_resultants
+from formfind.errors import AnalysisError
+from formfind.model.loads import StationLoads
+
+
+@dataclass(frozen=True, eq=False)
+class BucklingResult:
+    """Buckling of one reference load state.
+
+    Attributes:
+        state: name of the reference load state.
+        factors: load factors lambda on the reference state, ascending, positive (dimensionless).
+        modes: (modes, stations, 3) nodal mode shapes (ux, uy, rotation), each scaled to a largest
+            translation of 1.
+        symmetry: for each mode, "symmetric", "antisymmetric" or "unsymmetric" (about midspan).
+        follow_axis: whether the pressure loads were taken as following the deflected axis.
+        axial_force: element axial forces of the reference state (elements,), kN, tension positive.
+    """
+
+    state: str
+    factors: np.ndarray
+    modes: np.ndarray
+    symmetry: tuple[str, ...]
+    follow_axis: bool
+    axial_force: np.ndarray
+
+    @property
+    def critical_factor(self) -> float:
+        """The smallest positive load factor (inf if the state puts nothing in compression)."""
+        return float(self.factors[0]) if self.factors.size else float("inf")
+
+
+def element_axial_forces(model: FrameModel, loads: StationLoads) -> np.ndarray:
+    """Axial force along each chord element (states, elements), kN, tension positive.
+
+    From the resultant of the part left of each element's midpoint projected on the chord.
+    """
+    response = solve(model, loads, displacements=False)
+    axis = model.axis
+    reaction = response.reactions[:, 0, :2].copy()
+    if response.tie_force.any():
+        tdx, tdy = axis.x[-1] - axis.x[0], axis.y[-1] - axis.y[0]
+        tl = np.hypot(tdx, tdy)
+        reaction += response.tie_force[:, None] * np.array([tdx / tl, tdy / tl])
+    cuts = cut_resultants(axis, loads)
+    fa, fb = loads.dist[:, :, 0, :], loads.dist[:, :, 1, :]
+    half = 0.375 * fa + 0.125 * fb  # integral of the density over t in [0, 1/2]
+    left = cuts.force_right[:, :-1] + half + reaction[:, None, :]
+    if loads.point_x.size:  # point loads inside the first half of their element
+        e = np.clip(np.searchsorted(axis.x, loads.point_x, side="right") - 1, 0, axis.count - 2)
+        t = (loads.point_x - axis.x[e]) / (axis.x[e + 1] - axis.x[e])
+        inner = (t > 1e-12) & (t <= 0.5)
+        np.add.at(left, (loads.point_state[inner], e[inner]), loads.point_force[inner])
+    return -(left[..., 0] * model.cos + left[..., 1] * model.sin)
+
+
+def geometric_stiffness(model: FrameModel, axial: np.ndarray) -> sp.csc_matrix:
+    """Global geometric stiffness for element axial forces ``axial`` (elements,), tension positive."""
+    L = model.length
+    kg = np.zeros((L.size, 6, 6))
+    a = axial / (30.0 * L)
+    kg[:, 1, 1] = kg[:, 4, 4] = 36 * a
+    kg[:, 1, 4] = kg[:, 4, 1] = -36 * a
+    kg[:, 1, 2] = kg[:, 2, 1] = kg[:, 1, 5] = kg[:, 5, 1] = 3 * L * a
+    kg[:, 4, 2] = kg[:, 2, 4] = kg[:, 4, 5] = kg[:, 5, 4] = -3 * L * a
+    kg[:, 2, 2] = kg[:, 5, 5] = 4 * L**2 * a
+    kg[:, 2, 5] = kg[:, 5, 2] = -(L**2) * a
+    t = rotation_matrices(model.cos, model.sin)
+    kglob = np.einsum("eji,ejk,ekl->eil", t, kg, t)
+    dofs = model.element_dofs
+    rows = np.repeat(dofs, 6, axis=1).ravel()
+    cols = np.tile(dofs, (1, 6)).ravel()
+    n = model.dof_count
+    return sp.csc_matrix(sp.coo_matrix((kglob.ravel(), (rows, cols)), shape=(n, n)))
+
+
+def pressure_load_stiffness(model: FrameModel, loads: StationLoads, state: int) -> sp.csc_matrix:
+    """Load stiffness K_L = -dF/du of the distributed loads of ``state`` taken as follower pressure.
+
+    Each element's density is resolved into its component normal to the chord, treated as a
+    pressure that stays normal to the deflected chord (lumped half to each end node).
+    """
+    dist = loads.dist[state]  # (elements, 2, 2)
+    c, s = model.cos, model.sin
+    # inward normal of the chord (s, -c); mean inward pressure force per unit chord parameter
+    inward = 0.5 * ((dist[:, 0, 0] + dist[:, 1, 0]) * s - (dist[:, 0, 1] + dist[:, 1, 1]) * c)
+    p = inward / model.length  # kN/m of chord, positive pushing from extrados to intrados
+    rot = np.array([[0.0, 1.0], [-1.0, 0.0]])  # tangent (dx, dy) -> inward (dy, -dx)
+    blocks = []
+    rows, cols = [], []
+    dofs = model.element_dofs
+    for e in range(model.length.size):
+        i = dofs[e, [0, 1]]
+        j = dofs[e, [3, 4]]
+        dfdu = 0.5 * p[e] * np.block([[-rot, rot], [-rot, rot]])
+        idx = np.concatenate([i, j])
+        blocks.append(-dfdu)
+        rows.append(np.repeat(idx, 4))
+        cols.append(np.tile(idx, 4))
+    n = model.dof_count
+    data = np.concatenate([b.ravel() for b in blocks])
+    return sp.csc_matrix(
+        sp.coo_matrix((data, (np.concatenate(rows), np.concatenate(cols))), shape=(n, n))
+    )
+
+
+def _symmetry(model: FrameModel, mode: np.ndarray) -> str:
+    axis = model.axis
+    mirror = axis.span_m - axis.x
+    if not np.allclose(np.sort(mirror), axis.x, atol=1e-9 * axis.span_m):
+        return "unsymmetric"
+    uy = mode[:, 1]
+    uy_m = np.interp(axis.x, mirror[::-1], uy[::-1])
+    norm = float(np.dot(uy, uy))
+    if norm == 0.0:
+        return "unsymmetric"
+    corr = float(np.dot(uy, uy_m)) / norm
+    return "symmetric" if corr > 0.9 else "antisymmetric" if corr < -0.9 else "unsymmetric"
+
+
+def buckle(
+    model: FrameModel,
+    loads: StationLoads,
+    state: int = 0,
+    modes: int = 4,
+    follow_axis: bool = False,
+) -> BucklingResult:
+    """The first ``modes`` buckling factors and shapes of load state ``state``.
+
+    Raises:
+        AnalysisError: if the eigen-solver does not converge.
+    """
+    one = _one_state(loads, state)
+    axial = element_axial_forces(model, one)[0]
+    kg = geometric_stiffness(model, axial)
+    if follow_axis:
+        kg = kg + pressure_load_stiffness(model, one, 0)
+    free = model.free
+    k_ff = model.stiffness[free][:, free].tocsc()
+    g_ff = (-kg[free][:, free]).tocsc()
+    g_ff = 0.5 * (g_ff + g_ff.T)
+    if not np.any(axial < 0.0):
+        return BucklingResult(one.names[0], np.zeros(0), np.zeros((0, model.axis.count, 3)), (), follow_axis, axial)
+    count = min(modes, free.size - 2)
+    try:
+        # mu = 1 / lambda: -K_G phi = mu K phi; the largest mu are the smallest positive factors
+        # a seeded, unsymmetric start vector: deterministic output, and no symmetry class left out
+        start = np.random.default_rng(20240601).standard_normal(free.size)
+        mu, vec = eigsh(g_ff, k=min(count + 2, free.size - 2), M=k_ff, which="LA", tol=1e-10, v0=start)
+    except ArpackNoConvergence as exc:
+        raise AnalysisError(f"buckling eigen-solver did not converge for state {one.names[0]!r}: {exc}") from None
+    order = np.argsort(mu)[::-1]
+    mu, vec = mu[order], vec[:, order]
+    keep = mu > 0
+    mu, vec = mu[keep][:count], vec[:, keep][:, :count]
+    factors = 1.0 / mu
+    n = model.axis.count
+    shapes = np.zeros((factors.size, n, 3))
+    full = np.zeros((model.dof_count, factors.size))
+    full[free] = vec
+    for m in range(factors.size):
+        u = full[:, m]
+        shape = np.stack([u[0 : 3 * n : 3], u[1 : 3 * n : 3], u[2 : 3 * n : 3]], axis=-1)
+        scale = np.max(np.hypot(shape[:, 0], shape[:, 1]))
+        shape = shape / scale if scale > 0 else shape
+        big = np.argmax(np.abs(shape[:, 1]))
+        shapes[m] = shape * np.sign(shape[big, 1] or 1.0)
+    symmetry = tuple(_symmetry(model, shapes[m]) for m in range(factors.size))
+    return BucklingResult(one.names[0], factors, shapes, symmetry, follow_axis, axial)
+
+
+def _one_state(loads: StationLoads, state: int) -> StationLoads:
+    sel = loads.point_state == state
+    return StationLoads(
+        names=(loads.names[state],),
+        groups=(loads.groups[state],),
+        dist=loads.dist[state : state + 1],
+        point_state=np.zeros(int(sel.sum()), dtype=int),
+        point_x=loads.point_x[sel],
+        point_force=loads.point_force[sel],
+        temperature_uniform_C=loads.temperature_uniform_C[state : state + 1],
+        temperature_difference_C=loads.temperature_difference_C[state : state + 1],
+        support_movement=loads.support_movement[state : state + 1],
+    )
