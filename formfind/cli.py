@@ -7,6 +7,7 @@ Exit codes (also in the README):
     3  the case file is missing or invalid
     4  the analysis could not produce a trustworthy result (mechanism, failed verification)
     5  an output could not be written, or would overwrite earlier outputs without --overwrite
+    6  form finding failed: conflicting constraints, a solver failure, or no convergence
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ CAUTION_LINE = (
     "example load factors are not code values."
 )
 ANALYSIS_FILES = ["analysis.json", "forces.csv", "reactions.csv", "summary.csv", "buckling.csv"]
+SHAPE_FILES = ["shape.json", "axis.csv"]
 SUPPORT_CHOICES = ["three_hinged", "two_hinged", "fixed", "tied"]
 
 
@@ -36,7 +38,7 @@ def _parser() -> argparse.ArgumentParser:
         prog="formfind",
         description="Find and check arch axes. Units: m, kN, kNm, degC.",
         epilog="Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad case file, 4 analysis failed, "
-        "5 output not written.",
+        "5 output not written, 6 form finding failed.",
     )
     parser.add_argument("--version", action="version", version=f"formfind {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -46,7 +48,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("-v", "--verbose", action="store_true", help="also list the defaults filled in")
 
     for name, text in (
-        ("run", "the whole job on a case: analyse and write every output"),
+        ("run", "the whole job on a case: find the axis, analyse it, write every output"),
+        ("find", "find the axis of least bending for the governing loads ([find] in the case file)"),
         ("analyse", "analyse the case's given axis under all cases and combinations"),
     ):
         p = sub.add_parser(name, help=text, description=text)
@@ -73,8 +76,8 @@ def run_cli(argv: list[str] | None = None) -> int:
     try:
         if args.command == "validate":
             return _validate(args)
-        if args.command in ("run", "analyse"):
-            return _analyse(args)
+        if args.command in ("run", "analyse", "find"):
+            return _job(args)
         if args.command == "keys":
             from formfind.model.schema import reference_markdown
 
@@ -137,31 +140,66 @@ def _validate(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def _analyse(args: argparse.Namespace) -> int:
+def _job(args: argparse.Namespace) -> int:
+    """find, analyse or run: compute, then write every file atomically, then print the summary."""
     from formfind.analysis.engine import analyse
     from formfind.output import files, tables
 
     case = _load(args)
     folder = Path(args.out) / files.safe_name(case.name)
-    names = ANALYSIS_FILES + (["states.csv"] if args.all_states else [])
+    names: list[str] = []
+    if args.command in ("find", "run"):
+        names += SHAPE_FILES
+    if args.command in ("analyse", "run"):
+        names += ANALYSIS_FILES + (["states.csv"] if args.all_states else [])
     files.prepare_folder(folder, names, args.overwrite)
-    result = analyse(case, buckling=False if args.no_buckling else None)
-    texts = {
-        "analysis.json": tables.analysis_json(result),
-        "forces.csv": tables.forces_csv(result),
-        "reactions.csv": tables.reactions_csv(result),
-        "summary.csv": tables.summary_csv(result),
-        "buckling.csv": tables.buckling_csv(result),
-    }
-    if args.all_states:
-        texts["states.csv"] = tables.states_csv(result)
+    texts: dict[str, str] = {}
+    shape = None
+    axis = None
+    if args.command in ("find", "run"):
+        from formfind.design.shape import find_shape
+
+        shape = find_shape(case)
+        axis = shape.axis
+        if shape.section != case.section:  # min_depth: the found depth is the rib from here on
+            case = replace(case, section=shape.section)
+        texts["shape.json"] = tables.shape_json(shape, case.name)
+        texts["axis.csv"] = tables.axis_csv(axis, case.section.at(axis))
+    result = None
+    if args.command in ("analyse", "run"):
+        result = analyse(case, axis=axis, buckling=False if args.no_buckling else None)
+        texts.update({
+            "analysis.json": tables.analysis_json(result),
+            "forces.csv": tables.forces_csv(result),
+            "reactions.csv": tables.reactions_csv(result),
+            "summary.csv": tables.summary_csv(result),
+            "buckling.csv": tables.buckling_csv(result),
+        })
+        if args.all_states:
+            texts["states.csv"] = tables.states_csv(result)
     for name, text in texts.items():
         files.write_text(folder / name, text)
     if not args.quiet:
-        _print_summary(result)
+        if shape is not None:
+            _print_shape(shape)
+        if result is not None:
+            _print_summary(result)
         print(f"wrote {len(texts)} files to {folder}/")
         print(CAUTION_LINE)
     return EXIT_OK
+
+
+def _print_shape(shape) -> None:
+    bound = "" if shape.dual_bound is None else f", dual bound {shape.dual_bound:.6g} (gap {shape.gap:.1e})"
+    print(f"found axis: {shape.objective.value} = {shape.value:.6g} {shape.unit} by {shape.method} "
+          f"({shape.solver}, {shape.status}){bound}; {len(shape.iterations)} iteration(s); checked by the "
+          f"exact engine: {shape.checked_value:.6g} {shape.unit}")
+    if shape.governing:
+        where = ", ".join(f"{g.state} at x = {g.x_m:.2f} m" for g in shape.governing[:4])
+        print(f"governing: {where}{' ...' if len(shape.governing) > 4 else ''}")
+    for a in shape.active:
+        cost = "" if a.cost != a.cost else f", cost {a.cost:.4g} {a.unit}"
+        print(f"active constraint: {a.name} at {len(a.stations)} station(s){cost}")
 
 
 def _print_summary(result) -> None:

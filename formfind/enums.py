@@ -78,3 +78,20 @@ class TrainDirection(StrEnum):
     LEFT_TO_RIGHT = "left_to_right"
     RIGHT_TO_LEFT = "right_to_left"
     BOTH = "both"
+
+
+class Objective(StrEnum):
+    """What form finding minimises over the governing load states."""
+
+    MINIMAX = "minimax"  # the largest |M| (kNm)
+    RMS = "rms"  # the root mean square of M along the arch, integral of M^2 ds (kNm)
+    OFFSET = "offset"  # the largest vertical distance |M| / H between thrust line and axis (m)
+    MIN_DEPTH = "min_depth"  # the least rib depth keeping every thrust line in the kern (m)
+
+
+class Solver(StrEnum):
+    """Convex solver used through cvxpy."""
+
+    AUTO = "auto"  # Clarabel for sparse programs and QPs, HiGHS for the dense LPs of the sequential method
+    CLARABEL = "clarabel"  # interior point, LPs and QPs
+    HIGHS = "highs"  # simplex / interior point, LPs only (QPs of the final selection go to Clarabel)

@@ -44,3 +44,10 @@ class OutputError(FormfindError):
     """An output could not be written, or would overwrite existing files without permission."""
 
     exit_code = 5
+
+
+class FormFindingError(FormfindError):
+    """Form finding could not deliver an axis: conflicting constraints, a solver failure, or a loop
+    that did not converge. The message names the constraints or gives the loop's last figures."""
+
+    exit_code = 6

@@ -507,7 +507,10 @@ def _reaction_array(model: FrameModel, values: np.ndarray) -> np.ndarray:
 
 def _complete_by_statics(model: FrameModel, cuts, reactions_fe: np.ndarray) -> np.ndarray:
     """Reactions: the redundants from the frame model, the rest from the three equations of statics."""
-    axis = model.axis
+    return _complete(model.axis, model.maps, cuts, reactions_fe)
+
+
+def _complete(axis: Axis, maps: ResponseMaps, cuts, reactions_fe: np.ndarray) -> np.ndarray:
     xa, ya, xb, yb = axis.x[0], axis.y[0], axis.x[-1], axis.y[-1]
     # rows: sum Fx, sum Fy, sum M about the origin; columns: (left Rx, Ry, M, right Rx, Ry, M)
     coeff = np.array(
@@ -519,8 +522,8 @@ def _complete_by_statics(model: FrameModel, cuts, reactions_fe: np.ndarray) -> n
     )
     rhs = -np.stack([cuts.total_force[:, 0], cuts.total_force[:, 1], cuts.total_moment], axis=1)
     flat = reactions_fe.reshape(-1, 6)
-    known = list(model.maps.redundant)
-    unknown = list(model.maps.completed)
+    known = list(maps.redundant)
+    unknown = list(maps.completed)
     rhs = rhs - flat[:, known] @ coeff[:, known].T
     solved = np.linalg.solve(coeff[:, unknown], rhs.T).T
     out = np.zeros_like(flat)
@@ -529,8 +532,8 @@ def _complete_by_statics(model: FrameModel, cuts, reactions_fe: np.ndarray) -> n
     return out.reshape(-1, 2, 3)
 
 
-def _displacements(model: FrameModel, loads: StationLoads) -> np.ndarray:
-    """Nodal displacements (states, stations, 3) by a full solve, verified by its backward error."""
+def solve_displacements(model: FrameModel, loads: StationLoads) -> np.ndarray:
+    """Full displacement vectors (states, dofs) by one multi-RHS solve, verified by its backward error."""
     f = load_vectors(model, loads)
     u = np.zeros_like(f)
     u_r = _prescribed(model, loads)
@@ -544,8 +547,41 @@ def _displacements(model: FrameModel, loads: StationLoads) -> np.ndarray:
                 f"{error:.2e} > {RESIDUAL_RTOL:.0e} (ill-conditioned stiffness)"
             )
         u[:, model.free] = u_f.T
+    return u
+
+
+def _displacements(model: FrameModel, loads: StationLoads) -> np.ndarray:
+    """Nodal displacements (states, stations, 3)."""
+    u = solve_displacements(model, loads)
     n = model.axis.count
     return np.stack([u[:, 0 : 3 * n : 3], u[:, 1 : 3 * n : 3], u[:, 2 : 3 * n : 3]], axis=-1)
+
+
+def recover_moments(model: FrameModel, axis: Axis, loads: StationLoads, redundants: np.ndarray) -> np.ndarray:
+    """Station moments M (states, stations) on ``axis`` for given redundant values (states, redundants).
+
+    Redundants are the flat reaction components ``maps.redundant`` followed, for a tied arch, by the
+    tie force; the other reactions are completed by statics on ``axis`` (which may differ from the
+    model's own axis: the sensitivity analysis moves it).
+    """
+    cuts = cut_resultants(axis, loads)
+    flat = np.zeros((loads.count, 6))
+    red = list(model.maps.redundant)
+    flat[:, red] = redundants[:, : len(red)]
+    reactions = _complete(axis, model.maps, cuts, flat.reshape(-1, 2, 3))
+    left = reactions[:, 0, :2].copy()
+    if model.kind is SupportKind.TIED:
+        left += redundants[:, -1:] * model.maps.tie_direction
+    return internal_forces(axis, cuts, left, reactions[:, 0, 2])[2]
+
+
+def redundant_values(model: FrameModel, loads: StationLoads) -> np.ndarray:
+    """The redundants (states, redundants) of every state from the response maps."""
+    values = functional_values(model, loads)
+    flat = _reaction_array(model, values).reshape(-1, 6)[:, list(model.maps.redundant)]
+    if model.kind is SupportKind.TIED:
+        flat = np.column_stack([flat, values[:, -1]])
+    return flat
 
 
 def solve(model: FrameModel, loads: StationLoads, displacements: bool = True) -> Response:

@@ -24,9 +24,11 @@ from formfind.enums import (
     ActionKind,
     FillReference,
     LoadDirection,
+    Objective,
     Projection,
     SectionVariation,
     ShapeKind,
+    Solver,
     StationSpacing,
     SupportKind,
     TrainDirection,
@@ -120,6 +122,30 @@ class AnalysisSettings:
 
 
 @dataclass(frozen=True)
+class FindSettings:
+    """Form-finding settings (see `formfind.model.schema.FIND`). Lengths in m.
+
+    ``governing`` names combinations or cases; empty means every combination (every case if none).
+    ``clearance`` and ``envelope`` are polylines ((x, y), ...) or empty.
+    """
+
+    objective: Objective = Objective.MINIMAX
+    governing: tuple[str, ...] = ()
+    rise_min_m: float | None = None
+    rise_max_m: float | None = None
+    symmetric: bool = False
+    clearance: tuple[tuple[float, float], ...] = ()
+    envelope: tuple[tuple[float, float], ...] = ()
+    max_slope: float | None = None
+    max_curvature_per_m: float | None = None
+    kern_fraction: float = 1.0 / 3.0
+    solver: Solver = Solver.AUTO
+    max_iterations: int = 60
+    tolerance_m: float | None = None
+    step_limit_m: float | None = None
+
+
+@dataclass(frozen=True)
 class Case:
     """A validated case file.
 
@@ -139,6 +165,7 @@ class Case:
     cases: tuple[LoadCase, ...]
     combinations: tuple[Combination, ...]
     analysis: AnalysisSettings = AnalysisSettings()
+    find: FindSettings = FindSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
 
@@ -239,8 +266,10 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     rib = _section(section(schema.SECTION), file)
     stations = section(schema.STATIONS, required=False)
     settings = section(schema.ANALYSIS, required=False)
+    find_raw = section(schema.FIND, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
+    find = _find(find_raw, geometry, rib, cases, combinations, file)
     return Case(
         name=meta["name"],
         title=meta["title"],
@@ -252,6 +281,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         cases=cases,
         combinations=combinations,
         analysis=AnalysisSettings(**settings),
+        find=find,
         source=file,
         defaults_used=tuple(defaults),
     )
@@ -429,3 +459,49 @@ def _combinations(raw: Any, cases: tuple[LoadCase, ...], file: str) -> tuple[Com
             raise CaseError(file, f"{path}.factors", "at most one moving-load (axle_train) case per combination")
         out.append(Combination(v["name"], v["factors"], v["description"]))
     return tuple(out)
+
+
+def _polyline(xs: Any, ys: Any, span: float, file: str, key: str) -> tuple[tuple[float, float], ...]:
+    if xs is None and ys is None:
+        return ()
+    if xs is None or ys is None or len(xs) != len(ys) or len(xs) < 2:
+        raise CaseError(file, f"find.{key}_y_m", f"expected {key}_x_m and {key}_y_m of equal length (>= 2)")
+    if any(b <= a for a, b in zip(xs, xs[1:], strict=False)):
+        raise CaseError(file, f"find.{key}_x_m", "expected strictly increasing abscissae")
+    for i, x in enumerate(xs):
+        _within(x, span, file, f"find.{key}_x_m[{i}]")
+    return tuple(zip(xs, ys, strict=True))
+
+
+def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[LoadCase, ...],
+          combinations: tuple[Combination, ...], file: str) -> FindSettings:
+    names = [c.name for c in combinations] + [c.name for c in cases]
+    governing = f["governing"] or ()
+    for i, name in enumerate(governing):
+        if name not in names:
+            raise CaseError(file, f"find.governing[{i}]", f"unknown combination or case {name!r}{schema.suggest(name, names)}")
+    lo = geometry.rise_m if f["rise_min_m"] is None else f["rise_min_m"]
+    hi = geometry.rise_m if f["rise_max_m"] is None else f["rise_max_m"]
+    if lo > hi:
+        raise CaseError(file, "find.rise_min_m", f"expected rise_min_m <= rise_max_m ({hi:g} m), got {lo:g}")
+    if f["symmetric"] and geometry.springing_left_m != geometry.springing_right_m:
+        raise CaseError(file, "find.symmetric", "a symmetric axis needs springings at one level")
+    if f["objective"] is Objective.MIN_DEPTH and rib.width_m is None:
+        raise CaseError(file, "find.objective", "min_depth needs a solid rectangular rib ([section] width_m)")
+    span = geometry.span_m
+    return FindSettings(
+        objective=f["objective"],
+        governing=tuple(governing),
+        rise_min_m=lo,
+        rise_max_m=hi,
+        symmetric=f["symmetric"],
+        clearance=_polyline(f["clearance_x_m"], f["clearance_y_m"], span, file, "clearance"),
+        envelope=_polyline(f["envelope_x_m"], f["envelope_y_m"], span, file, "envelope"),
+        max_slope=f["max_slope"],
+        max_curvature_per_m=f["max_curvature_per_m"],
+        kern_fraction=f["kern_fraction"],
+        solver=f["solver"],
+        max_iterations=f["max_iterations"],
+        tolerance_m=f["tolerance_m"],
+        step_limit_m=f["step_limit_m"],
+    )

@@ -369,6 +369,15 @@ def _distributed(load: Load, axis: Axis, section: SectionAlong) -> np.ndarray:
     return out
 
 
+def case_distributed(case: LoadCase, axis: Axis, section: SectionAlong) -> np.ndarray:
+    """The distributed-load densities of one load case on ``axis`` (elements, 2 ends, 2 components)."""
+    total = np.zeros((axis.count - 1, 2, 2))
+    for load in case.loads:
+        if isinstance(load, LineLoad | SelfWeight | NormalPressure | FillLoad):
+            total += _distributed(load, axis, section)
+    return total
+
+
 def fill_intensity(load: FillLoad, axis: Axis, section: SectionAlong) -> np.ndarray:
     """Fill load per metre of horizontal projection at every station (kN/m), downward."""
     if load.reference is FillReference.EXTRADOS:

@@ -18,9 +18,11 @@ from formfind.enums import (
     ActionKind,
     FillReference,
     LoadDirection,
+    Objective,
     Projection,
     SectionVariation,
     ShapeKind,
+    Solver,
     StationSpacing,
     SupportKind,
     TrainDirection,
@@ -38,7 +40,8 @@ class Key:
     """One key of a table.
 
     ``kind`` is one of: "number", "integer", "string", "name", "boolean", "numbers" (a list of
-    numbers), "factors" (an inline table of name = number), or an Enum class (a choice).
+    numbers), "names" (a list of strings), "factors" (an inline table of name = number), or an Enum
+    class (a choice).
     """
 
     name: str
@@ -214,6 +217,44 @@ ANALYSIS = Table(
     ),
 )
 
+FIND = Table(
+    "find",
+    "Form finding: which axis, within the limits below, bends least under the governing load states. "
+    "Springing levels are always kept; the span is the geometry's.",
+    (
+        Key("objective", Objective, "minimax: the largest |M| (kNm); rms: root mean square of M along the "
+            "arch (kNm); offset: the largest vertical distance |M|/H between thrust line and axis (m); "
+            "min_depth: the least rib depth keeping every thrust line inside the kern (m).",
+            default=Objective.MINIMAX.value),
+        Key("governing", "names", "Combinations or cases whose states govern; default: every combination "
+            "(every case if there are none).", default=None),
+        Key("rise_min_m", "number", "Least rise above the springing chord at the crown; default: the "
+            "geometry's rise (a fixed rise).", "m", default=None, positive=True),
+        Key("rise_max_m", "number", "Greatest rise above the springing chord anywhere; default: the "
+            "geometry's rise.", "m", default=None, positive=True),
+        Key("symmetric", "boolean", "Keep the axis symmetric about midspan.", default=False),
+        Key("clearance_x_m", "numbers", "Abscissae of a clearance line the intrados must stay above.", "m",
+            default=None),
+        Key("clearance_y_m", "numbers", "Its levels; the intrados is measured vertically.", "m", default=None),
+        Key("envelope_x_m", "numbers", "Abscissae of a site limit the extrados must stay below.", "m",
+            default=None),
+        Key("envelope_y_m", "numbers", "Its levels; the extrados is measured vertically.", "m", default=None),
+        Key("max_slope", "number", "Largest |dy/dx| of any element.", default=None, positive=True),
+        Key("max_curvature_per_m", "number", "Largest |d2y/dx2| (smoothness).", "1/m", default=None,
+            positive=True),
+        Key("kern_fraction", "number", "For min_depth: the thrust line stays within this fraction of the "
+            "depth, centred (1/3 = middle third).", default=1.0 / 3.0, positive=True, maximum=1.0),
+        Key("solver", Solver, "Convex solver; auto: Clarabel for sparse programs and quadratic ones, HiGHS "
+            "for the dense linear programs of the sequential method.", default=Solver.AUTO.value),
+        Key("max_iterations", "integer", "Steps of the sequential method (shape-dependent loads, "
+            "indeterminate arches, rise bounds, min_depth), 1..500.", default=60, minimum=1, maximum=500),
+        Key("tolerance_m", "number", "The sequential method stops when no ordinate moves more than this; "
+            "default: 1e-5 of the span.", "m", default=None, positive=True),
+        Key("step_limit_m", "number", "Largest change of any ordinate in one iteration (indeterminate "
+            "arches); default: a quarter of the rise.", "m", default=None, positive=True),
+    ),
+)
+
 CASES = Table(
     "cases",
     "Load cases, one [[cases]] table each, holding a list of [[cases.loads]].",
@@ -322,7 +363,7 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, CASES, COMBINATIONS)
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CASES, COMBINATIONS)
 
 
 def _fail(file: str, path: str, expected: str) -> CaseError:
@@ -393,6 +434,10 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
         if not isinstance(value, bool):
             raise _fail(file, path, f"expected true or false, got {_describe(value)}")
         return value
+    if kind == "names":
+        if not isinstance(value, list) or not value or not all(isinstance(v, str) for v in value):
+            raise _fail(file, path, f"expected a non-empty list of names, got {_describe(value)}")
+        return tuple(value)
     if kind == "numbers":
         if not isinstance(value, list) or not value:
             raise _fail(file, path, f"expected a non-empty list of numbers{_unit(key)}, got {_describe(value)}")

@@ -19,6 +19,9 @@ import numpy as np
 from formfind import __version__
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
+from formfind.design.shape import ShapeResult
+from formfind.model.geometry import Axis
+from formfind.model.section import SectionAlong
 
 SIGN_CONVENTION = (
     "x right from the left springing, y up (m). N tension positive (arch compression is negative). "
@@ -231,3 +234,54 @@ def buckling_csv(analysis: CaseAnalysis) -> str:
             row += [float(b.factors[m]), b.symmetry[m]] if m < b.factors.size else ["", ""]
         rows.append(row)
     return _csv(header, rows)
+
+
+def axis_csv(axis: Axis, section: SectionAlong) -> str:
+    """The axis at its stations: x, y, tangent angle, arc length, and intrados and extrados points."""
+    intra = axis.intrados(section.depth_m)
+    extra = axis.extrados(section.depth_m)
+    numbers = np.column_stack([axis.x, axis.y, np.degrees(axis.theta), axis.arc_length, section.depth_m,
+                               intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
+    header = ["station", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
+              "extrados_x_m", "extrados_y_m"]
+    return _rows_csv(header, [list(range(axis.count))], numbers)
+
+
+def shape_json(result: ShapeResult, case_name: str) -> str:
+    """The form-finding result: objective, certificate, governing points, active constraints, history."""
+    return dumps(
+        {
+            "formfind_version": __version__,
+            "case": case_name,
+            "caution": CAUTION,
+            "objective": result.objective.value,
+            "unit": result.unit,
+            "value": result.value,
+            "checked_value": result.checked_value,
+            "dual_bound": result.dual_bound,
+            "relative_gap": result.gap,
+            "dual_stationarity_residual": result.stationarity,
+            "method": result.method,
+            "solver": result.solver,
+            "status": result.status,
+            "solve_time_s": result.solve_time_s,
+            "rib_depth_m": result.section.depth_m,
+            "governing_states": list(result.states),
+            "governing_points": [
+                {"state": g.state, "station": g.station, "x_m": g.x_m, "multiplier": g.multiplier}
+                for g in result.governing
+            ],
+            "active_constraints": [
+                {"name": a.name, "stations": list(a.stations), "cost": None if not np.isfinite(a.cost) else a.cost,
+                 "cost_unit": a.unit}
+                for a in result.active
+            ],
+            "iterations": [
+                {"number": it.number, "objective": it.objective, "max_change_m": it.max_change_m,
+                 "model_residual_kNm": it.residual_kNm}
+                for it in result.iterations
+            ],
+            "axis": {"x_m": result.axis.x, "y_m": result.axis.y, "theta_rad": result.axis.theta},
+        },
+        indent=None,
+    )

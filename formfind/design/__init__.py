@@ -1,0 +1,1 @@
+"""Decisions: form finding (the axis), checks and verdicts, trade studies."""

@@ -1,0 +1,104 @@
+"""Form-finding machinery: the exact per-station method against the LP, the compiled program
+against the fresh build, the certificate, infeasibility messages, the command line."""
+
+from __future__ import annotations
+
+import json
+import tomllib
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from formfind.cli import run_cli
+from formfind.design.program import FormProgram, ProgramData, Structure, solve_program
+from formfind.design.separable import per_station_minimax
+from formfind.design.shape import find_shape
+from formfind.enums import Objective, Solver
+from formfind.errors import FormFindingError
+from formfind.model.case import parse_case
+from tests.conftest import BASE_CASE, ROOT
+
+EXIT_FORM_FINDING = 6
+
+
+def _structure(n: int, k: int, objective=Objective.MINIMAX, solver=Solver.CLARABEL) -> Structure:
+    eye = np.eye(n)
+    equality = sp.csr_matrix(eye[[0, n - 1]])
+    return Structure(objective, n, k, equality, (("rise_max", sp.csr_matrix(eye[1:-1])),), solver)
+
+
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 10_000), n=st.integers(5, 30), k=st.integers(1, 6))
+def test_per_station_method_equals_the_lp(seed, n, k):
+    """Without coupling constraints the minimax separates: the exact method and the LP agree (the
+    issue's cross-check), within 3e-7 relative: the LP's smoothest-axis stage may give up 1e-7 of the
+    optimum by design, plus the solver's own tolerance."""
+    rng = np.random.default_rng(seed)
+    a = rng.normal(0, 100, (k, n))
+    h = np.repeat(rng.uniform(20, 200, (k, 1)), n, axis=1)
+    upper = np.full(n, 50.0)
+    structure = _structure(n, k)
+    data = ProgramData(a=a, h=h, c=np.ones((k, n)), w=np.ones(n), g=np.zeros(2), q=(upper[1:-1],))
+    lp = solve_program(structure, data)
+    lower, upper_b = np.full(n, -1e3), upper.copy()
+    lower[[0, -1]] = upper_b[[0, -1]] = 0.0
+    _, values = per_station_minimax(a, h, lower, upper_b)
+    assert lp.value == pytest.approx(values.max(), rel=3e-7, abs=1e-9)
+    assert lp.value >= values.max() * (1 - 1e-9)  # the exact method is never beaten
+    assert lp.dual_bound == pytest.approx(lp.value, rel=1e-6, abs=1e-8)  # the certificate closes
+
+
+def test_compiled_program_resolves_like_a_fresh_build():
+    rng = np.random.default_rng(3)
+    n, k = 40, 5
+    structure = _structure(n, k)
+    program = FormProgram(structure)
+    for _ in range(3):
+        a = rng.normal(0, 50, (k, n))
+        h = np.repeat(rng.uniform(50, 150, (k, 1)), n, axis=1)
+        data = ProgramData(a=a, h=h, c=np.ones((k, n)), w=np.ones(n), g=np.zeros(2), q=(np.full(n - 2, 10.0),))
+        compiled, fresh = program.solve(data), solve_program(structure, data, select=False)
+        assert compiled.value == pytest.approx(fresh.value, rel=1e-6)
+        assert compiled.dual_bound == pytest.approx(fresh.dual_bound, rel=1e-5)
+
+
+def _case(find):
+    data = tomllib.loads(BASE_CASE)
+    data["find"] = find
+    return parse_case(data, "t.toml")
+
+
+def test_conflicting_constraints_are_named():
+    case = _case({"clearance_x_m": [8.0, 12.0], "clearance_y_m": [4.5, 4.5], "max_slope": 2.0})
+    with pytest.raises(FormFindingError, match="clearance"):
+        find_shape(case)
+
+
+def test_highs_and_clarabel_agree_on_an_lp():
+    values = []
+    for solver in ("clarabel", "highs"):
+        values.append(find_shape(_case({"objective": "minimax", "max_slope": 3.0, "solver": solver})).value)
+    assert values[0] == pytest.approx(values[1], rel=1e-5)
+
+
+def test_find_and_run_commands_write_the_axis(tmp_path, capsys):
+    case = str(ROOT / "cases" / "footbridge.toml")
+    assert run_cli(["find", case, "--out", str(tmp_path), "--stations", "41", "-q"]) == 0
+    shape = json.loads((tmp_path / "footbridge" / "shape.json").read_text())
+    assert shape["unit"] == "kNm" and shape["dual_bound"] <= shape["value"] * (1 + 1e-6)
+    rows = (tmp_path / "footbridge" / "axis.csv").read_text().splitlines()
+    assert rows[0].startswith("station,x_m,y_m,theta_deg") and len(rows) == 42
+    assert run_cli(["run", case, "--out", str(tmp_path / "r"), "--stations", "41"]) == 0
+    out = capsys.readouterr().out
+    assert "found axis" in out and "peak M kNm" in out
+
+
+def test_infeasible_case_exits_6_with_one_line(write_case, tmp_path, capsys):
+    text = BASE_CASE + '\n[find]\nclearance_x_m = [8.0, 12.0]\nclearance_y_m = [4.5, 4.5]\n'
+    code = run_cli(["find", str(write_case(text)), "--out", str(tmp_path / "o")])
+    err = capsys.readouterr().err
+    assert code == EXIT_FORM_FINDING and err.count("\n") == 1 and "clearance" in err
+    assert not (tmp_path / "o" / "small" / "shape.json").exists()
