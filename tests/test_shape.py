@@ -102,3 +102,25 @@ def test_infeasible_case_exits_6_with_one_line(write_case, tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == EXIT_FORM_FINDING and err.count("\n") == 1 and "clearance" in err
     assert not (tmp_path / "o" / "small" / "shape.json").exists()
+
+
+def test_found_axis_keeps_rise_bounds_envelope_slope_and_curvature():
+    """Every limit given is met by the found axis (rise between bounds, site envelope on the extrados
+    measured vertically, slope and curvature bounds), checked on the axis itself."""
+    find = {"rise_min_m": 3.0, "rise_max_m": 4.5, "envelope_x_m": [0.0, 20.0], "envelope_y_m": [4.9, 4.9],
+            "max_slope": 1.2, "max_curvature_per_m": 0.2}
+    case = _case(find)
+    result = find_shape(case)
+    axis = result.axis
+    x, y = axis.x, axis.y
+    chord = np.interp(x, x[[0, -1]], y[[0, -1]])
+    crown = int(np.argmin(np.abs(x - 10.0)))
+    tol = 1e-6
+    assert 3.0 - tol <= y[crown] - chord[crown] and np.max(y - chord) <= 4.5 + tol
+    extrados = y + 0.5 * case.section.at(axis).depth_m / np.cos(axis.theta)
+    assert np.max(extrados) <= 4.9 + 1e-4  # vertical half-depth of the previous iterate: within the last step
+    assert np.max(np.abs(np.diff(y) / np.diff(x))) <= 1.2 + tol
+    h = np.diff(x)
+    second = (np.diff(y)[1:] / h[1:] - np.diff(y)[:-1] / h[:-1]) / (0.5 * (h[1:] + h[:-1]))
+    assert np.max(np.abs(second)) <= 0.2 + tol
+    assert result.method.startswith("sequential")

@@ -31,6 +31,11 @@ def per_station_minimax(a: np.ndarray, h: np.ndarray, lower: np.ndarray, upper: 
     h = np.broadcast_to(np.asarray(h, dtype=float), a.shape)
     lo = np.array(lower, dtype=float)
     hi = np.array(upper, dtype=float)
+    if np.all(h > 0):
+        # every piece's root a/h bounds the minimiser: outside them all pieces rise together
+        roots = a / h
+        lo = np.clip(roots.min(axis=0), lo, hi)
+        hi = np.clip(roots.max(axis=0), lo, hi)
 
     def slope_sign(y: np.ndarray) -> np.ndarray:
         m = a - h * y[None, :]
@@ -44,8 +49,8 @@ def per_station_minimax(a: np.ndarray, h: np.ndarray, lower: np.ndarray, upper: 
         rising = slope_sign(mid) > 0
         hi = np.where(rising, mid, hi)
         lo = np.where(rising, lo, mid)
-        if np.all(hi - lo <= 1e-15 * np.maximum(1.0, np.abs(mid))):
-            break
+        if np.all(hi - lo <= 1e-10 * np.maximum(1.0, np.abs(mid))):
+            break  # the polish below intersects the two governing pieces exactly
     y = 0.5 * (lo + hi)
     # polish: intersect the largest rising and falling pieces at the bracket
     m = a - h * y[None, :]
