@@ -29,8 +29,10 @@ Two ways to solve. `solve_program` builds the problem with constant data and, fo
 objectives, generates constraints: it starts from the few states that are extreme at each station,
 solves, adds every (state, station) row the solution violates, and repeats until none is violated.
 The optimum is that of the full program, and the multipliers (zero on rows never added) remain a
-valid dual certificate for it. Where the optimum is not unique (stations that do not govern), a
-second stage picks, among the axes within 1e-7 of the optimum, the smoothest (least integral of the
+valid dual certificate for it. A tie-break of weight 1e-6 also minimises each station's own peak,
+so stations that do not govern take definite values (the certificate's normalisation divides the
+bound by 1 + 1e-6 accordingly, which keeps it a valid lower bound). Where the optimum is still not
+unique, a second stage picks, among the axes within 1e-7 of the optimum, the smoothest (least integral of the
 squared second derivative): a definite answer, and the shape a designer would draw. `FormProgram` compiles the full program once with cvxpy Parameters
 (DPP) so that a study re-solves without recompiling; its compilation grows with states x stations
 and suits modest sizes.
@@ -209,7 +211,8 @@ def _rms_certificate(structure: Structure, data: ProgramData, y: np.ndarray,
 
 
 INITIAL_STATES = 2  # per station and side, the most extreme states start the constraint generation
-SELECT_SLACK = 1e-7  # stage two may give up this fraction of the optimum to pick the nearest axis
+SELECT_SLACK = 1e-7  # stage two may give up this fraction of the optimum to pick the smoothest axis
+TIE_BREAK = 1e-6  # weight of the per-station peaks against the governing peak (lexicographic tie-break)
 MAX_ROUNDS = 50
 
 
@@ -274,23 +277,33 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
         chosen[order[j], cols] = True  # most negative
         chosen[order[k - 1 - j], cols] = True  # most positive
     s = cp.Variable()
+    # per-station peaks u_i <= s with a tiny weight: a lexicographic tie-break that also minimises
+    # every station's own peak, so stations that do not govern take definite values (no zigzag)
+    u = cp.Variable(n)
+    x_st = np.arange(n, dtype=float) if data.x is None else np.asarray(data.x, dtype=float)
+    tributary = np.zeros(n)
+    tributary[:-1] += 0.5 * np.diff(x_st)
+    tributary[1:] += 0.5 * np.diff(x_st)
+    tie_break = TIE_BREAK * tributary / tributary.sum()
     status = "not solved"
     yv = None
     for _ in range(MAX_ROUNDS):
         kk, ii = np.nonzero(chosen)
         moments = a[kk, ii] + data.rows(kk, ii) @ y
-        up = moments <= cp.multiply(c[kk, ii], s)
-        lo = -moments <= cp.multiply(c[kk, ii], s)
-        extra = [s >= 0] if structure.objective is Objective.MIN_DEPTH else []
-        problem = cp.Problem(cp.Minimize(s), cons + [up, lo] + extra)
+        bound_rows = cp.multiply(c[kk, ii], u[ii])
+        up = moments <= bound_rows
+        lo = -moments <= bound_rows
+        extra = [u <= s] + ([s >= 0] if structure.objective is Objective.MIN_DEPTH else [])
+        problem = cp.Problem(cp.Minimize(s + tie_break @ u), cons + [up, lo] + extra)
         status = _run(problem, solver)
         if y.value is None or status not in ("optimal", "optimal_inaccurate"):
             return ProgramSolution(status, None, None, None, float("nan"), None, (), (),
                                    time.perf_counter() - started, solver)
         yv = np.array(y.value, dtype=float)
         sv = float(s.value)
+        uv = np.array(u.value, dtype=float)
         m = data.moments(yv)
-        limit = c * sv
+        limit = c * np.minimum(uv, sv)[None, :]
         tol = 1e-9 * max(abs(sv) * max(float(c.max()), 1e-300), float(np.abs(m).max()), 1e-12)
         violated = (np.abs(m) > limit + tol) & ~chosen
         if not violated.any():
@@ -303,7 +316,7 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
     duals = tuple(np.asarray(cn.dual_value, dtype=float) for cn in ineq)
     nu = np.zeros(0) if eq is None else np.asarray(eq.dual_value, dtype=float).ravel()
     bound, stationarity, epi = _dual_certificate(structure, data, yv, lam_up.ravel(), lam_lo.ravel(), nu, duals)
-    best = float(problem.value)
+    best = float(s.value)
     # stage two: among the optimal axes, the smoothest (a definite answer where the optimum is not
     # unique); the certificate stays that of stage one
     limit_s = best + SELECT_SLACK * max(abs(best), 1e-12)
@@ -327,8 +340,8 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
     m = data.moments(yv)
     value = float(np.max(np.abs(m) / np.where(c > 0, c, np.inf))) if np.any(c > 0) else best
     slacks = tuple(np.asarray(q) - blk @ yv for (_, blk), q in zip(structure.blocks, data.q, strict=True))
-    return ProgramSolution(status, yv, max(value, best), bound, stationarity, epi, duals, slacks, elapsed,
-                           solver, int(np.count_nonzero(chosen)))
+    return ProgramSolution(status, yv, max(value, best), min(bound, best), stationarity, epi, duals, slacks,
+                           elapsed, solver, int(np.count_nonzero(chosen)))
 
 
 @contextlib.contextmanager

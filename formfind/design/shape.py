@@ -55,7 +55,9 @@ ACTIVE_SLACK_M = 1e-7  # a constraint row counts as active within this slack
 TOLERANCE_OF_SPAN = 1e-5  # default step tolerance of the sequential method, relative to the span
 STALL = 1e-6  # ... which also stops when two kept steps together gain less than this, relative
 SHRINK_BELOW, EXPAND_ABOVE = 0.1, 0.5  # trust-region ratio thresholds (actual / predicted decrease)
-POLISH_RADIUS = 0.02  # the final selection of the smoothest optimal axis moves at most this x the rise
+POLISH_RADIUS = 0.05  # the smoothing steps move at most this x the rise at first
+POLISH_STEPS = 8  # smoothing steps at most
+POLISH_SLACK = 1e-5  # a smoothing step may give up this fraction of the optimum (checked exactly)
 
 
 @dataclass(frozen=True)
@@ -551,32 +553,46 @@ def _sequential(case: Case, axis: Axis, section: Section, setup: _Setup) -> Shap
             f"form finding did not converge in {f.max_iterations} iterations: the last accepted step moved an "
             f"ordinate {moved:.3g} m (tolerance {tolerance:g} m); raise [find] max_iterations{hint}"
         )
-    # certify at the accepted axis: linearise there once more, and offer the smoothest axis among the
-    # (locally) optimal ones within a small region, kept only if the exact engine confirms it
+    # the smoothest axis among the (locally) optimal ones: short sequence of smoothing steps, each kept
+    # only if the exact engine confirms the objective within POLISH_SLACK of the optimum
+    optimum = current
+    polish_radius = POLISH_RADIUS * max(f.rise_max_m, 1e-3)
+    for _ in range(POLISH_STEPS):
+        h = _horizontal_resultant(response, axis)
+        jac = _jacobian(case, axis, section, loads, free)
+        half = _half_depth(section, axis)
+        data = ProgramData(a=response.M - np.einsum("kij,j->ki", jac, y), h=h,
+                           c=_weights(f.objective, h, response, f.kern_fraction), w=_tributary(axis), g=setup.g,
+                           q=_rhs(setup, y, half, polish_radius), jac=jac, x=x)
+        polished = _solve(setup, data, y, None, select=True)
+        total_time += polished.solve_time_s
+        if polished.y is None:
+            break
+        change = float(np.abs(polished.y - y).max())
+        if change <= tolerance:
+            break
+        candidate = axis_through(x, polished.y)
+        trial, trial_loads = _analyse(case, candidate, section)
+        value = _exact_value(f.objective, trial, candidate, _horizontal_resultant(trial, candidate), section,
+                             f.kern_fraction)
+        if value <= optimum * (1 + POLISH_SLACK) + 1e-12:
+            history.append(Iteration(len(history) + 1, value, change,
+                                     float(np.abs(data.moments(polished.y) - trial.M).max())))
+            y, axis, response, loads, current = polished.y, candidate, trial, trial_loads, value
+        else:
+            polish_radius = 0.5 * change
+    # certify at the final axis: the program linearised there with the region opened
     h = _horizontal_resultant(response, axis)
     jac = _jacobian(case, axis, section, loads, free)
-    half = _half_depth(section, axis)
     data = ProgramData(a=response.M - np.einsum("kij,j->ki", jac, y), h=h,
                        c=_weights(f.objective, h, response, f.kern_fraction), w=_tributary(axis), g=setup.g,
-                       q=_rhs(setup, y, half, POLISH_RADIUS * max(f.rise_max_m, 1e-3)), jac=jac, x=x)
-    polished = _solve(setup, data, y, None, select=True)
-    total_time += polished.solve_time_s
-    certificate = _solve(setup, replace(data, q=_rhs(setup, y, half, 10.0 * axis.span_m)), y, None, select=False)
+                       q=_rhs(setup, y, _half_depth(section, axis), 10.0 * axis.span_m), jac=jac, x=x)
+    certificate = _solve(setup, data, y, None, select=False)
     total_time += certificate.solve_time_s
     if certificate.y is not None:
         last = certificate
     if last is None:
         raise FormFindingError(f"form finding: the program at the found axis could not be solved ({certificate.status})")
-    if polished.y is not None:
-        candidate = axis_through(x, polished.y)
-        trial, trial_loads = _analyse(case, candidate, section)
-        value = _exact_value(f.objective, trial, candidate, _horizontal_resultant(trial, candidate), section,
-                             f.kern_fraction)
-        if value <= current * (1 + 1e-6) + 1e-12:
-            change = float(np.abs(polished.y - y).max())
-            history.append(Iteration(len(history) + 1, value, change,
-                                     float(np.abs(data.moments(polished.y) - trial.M).max())))
-            y, axis, response, loads, current = polished.y, candidate, trial, trial_loads, value
     return _result(case, axis, response, loads, setup, last, history, total_time, section, local=True)
 
 
