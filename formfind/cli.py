@@ -28,8 +28,6 @@ CAUTION_LINE = (
     "Caution: an aid to a qualified engineer; local codes and licensed practice govern; "
     "example load factors are not code values."
 )
-ANALYSIS_FILES = ["analysis.json", "forces.csv", "reactions.csv", "summary.csv", "buckling.csv"]
-SHAPE_FILES = ["shape.json", "axis.csv"]
 SUPPORT_CHOICES = ["three_hinged", "two_hinged", "fixed", "tied"]
 
 
@@ -141,19 +139,14 @@ def _validate(args: argparse.Namespace) -> int:
 
 
 def _job(args: argparse.Namespace) -> int:
-    """find, analyse or run: compute, then write every file atomically, then print the summary."""
+    """find, analyse or run: compute, build every file in memory, write them atomically, summarise."""
     from formfind.analysis.engine import analyse
-    from formfind.output import files, tables
+    from formfind.output import files
+    from formfind.output.package import build_files, write_package
 
     case = _load(args)
     folder = Path(args.out) / files.safe_name(case.name)
-    names: list[str] = []
-    if args.command in ("find", "run"):
-        names += SHAPE_FILES
-    if args.command in ("analyse", "run"):
-        names += ANALYSIS_FILES + (["states.csv"] if args.all_states else [])
-    files.prepare_folder(folder, names, args.overwrite)
-    texts: dict[str, str] = {}
+    files.prepare_folder(folder, [], args.overwrite)  # fail early on an unusable folder
     shape = None
     axis = None
     if args.command in ("find", "run"):
@@ -163,28 +156,17 @@ def _job(args: argparse.Namespace) -> int:
         axis = shape.axis
         if shape.section != case.section:  # min_depth: the found depth is the rib from here on
             case = replace(case, section=shape.section)
-        texts["shape.json"] = tables.shape_json(shape, case.name)
-        texts["axis.csv"] = tables.axis_csv(axis, case.section.at(axis))
     result = None
     if args.command in ("analyse", "run"):
         result = analyse(case, axis=axis, buckling=False if args.no_buckling else None)
-        texts.update({
-            "analysis.json": tables.analysis_json(result),
-            "forces.csv": tables.forces_csv(result),
-            "reactions.csv": tables.reactions_csv(result),
-            "summary.csv": tables.summary_csv(result),
-            "buckling.csv": tables.buckling_csv(result),
-        })
-        if args.all_states:
-            texts["states.csv"] = tables.states_csv(result)
-    for name, text in texts.items():
-        files.write_text(folder / name, text)
+    contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False))
+    written = write_package(folder, contents, args.overwrite)
     if not args.quiet:
         if shape is not None:
             _print_shape(shape)
         if result is not None:
             _print_summary(result)
-        print(f"wrote {len(texts)} files to {folder}/")
+        print(f"wrote {len(written)} files to {folder}/ (manifest.json lists them with SHA-256)")
         print(CAUTION_LINE)
     return EXIT_OK
 

@@ -95,3 +95,21 @@ class Solver(StrEnum):
     AUTO = "auto"  # Clarabel for sparse programs and QPs, HiGHS for the dense LPs of the sequential method
     CLARABEL = "clarabel"  # interior point, LPs and QPs
     HIGHS = "highs"  # simplex / interior point, LPs only (QPs of the final selection go to Clarabel)
+
+
+class DrawingUnit(StrEnum):
+    """Unit of a DXF drawing."""
+
+    MM = "mm"
+    M = "m"
+
+
+class DxfVersion(StrEnum):
+    """DXF versions formfind writes."""
+
+    R2000 = "R2000"
+    R2004 = "R2004"
+    R2007 = "R2007"
+    R2010 = "R2010"
+    R2013 = "R2013"
+    R2018 = "R2018"

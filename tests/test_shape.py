@@ -48,7 +48,9 @@ def test_per_station_method_equals_the_lp(seed, n, k):
     _, values = per_station_minimax(a, h, lower, upper_b)
     assert lp.value == pytest.approx(values.max(), rel=3e-7, abs=1e-9)
     assert lp.value >= values.max() * (1 - 1e-9)  # the exact method is never beaten
-    assert lp.dual_bound == pytest.approx(lp.value, rel=1e-6, abs=1e-8)  # the certificate closes
+    # the certificate closes, to within the 1e-6 the per-station tie-break costs it (program.TIE_BREAK)
+    assert lp.dual_bound <= lp.value * (1 + 1e-9)
+    assert lp.dual_bound == pytest.approx(lp.value, rel=3e-6, abs=1e-8)
 
 
 def test_compiled_program_resolves_like_a_fresh_build():

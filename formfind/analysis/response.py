@@ -203,3 +203,15 @@ def envelope(response: Response, group: str) -> Envelope:
 def envelopes(response: Response) -> list[Envelope]:
     """One `Envelope` per group, in the order the groups first appear."""
     return [envelope(response, g) for g in dict.fromkeys(response.groups)]
+
+
+def thrust_line(x: np.ndarray, y: np.ndarray, theta: np.ndarray, M: np.ndarray, N: np.ndarray) -> np.ndarray:
+    """Points (stations, 2), m, where the resultant of a state crosses each section.
+
+    The eccentricity along the normal n = (-sin theta, cos theta) is e = -M / N: with N < 0
+    (compression) and M > 0 (intrados in tension) the line of thrust lies on the extrados side.
+    Stations without axial force get no point (NaN).
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        e = np.where(np.abs(N) > 1e-12, -M / N, np.nan)
+    return np.stack([x - e * np.sin(theta), y + e * np.cos(theta)], axis=-1)

@@ -257,7 +257,7 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
         elapsed = time.perf_counter() - started
         if y.value is None or status not in ("optimal", "optimal_inaccurate"):
             return ProgramSolution(status, None, None, None, float("nan"), None, (), (), elapsed, solver)
-        yv = np.array(y.value, dtype=float)
+        yv = _snap(structure, data, np.array(y.value, dtype=float))
         duals = tuple(np.asarray(c.dual_value, dtype=float) for c in ineq)
         nu = np.zeros(0) if eq is None else np.asarray(eq.dual_value, dtype=float).ravel()
         bound, stationarity = _rms_certificate(structure, data, yv, duals, nu)
@@ -337,6 +337,7 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
             break
         chosen |= violated
     elapsed = time.perf_counter() - started
+    yv = _snap(structure, data, yv)
     m = data.moments(yv)
     value = float(np.max(np.abs(m) / np.where(c > 0, c, np.inf))) if np.any(c > 0) else best
     slacks = tuple(np.asarray(q) - blk @ yv for (_, blk), q in zip(structure.blocks, data.q, strict=True))
@@ -358,6 +359,20 @@ def _silent_stdout():
         sys.stdout.flush()
         os.dup2(saved, 1)
         os.close(saved)
+
+
+def _snap(structure: Structure, data: ProgramData, y: np.ndarray) -> np.ndarray:
+    """Meet the equality rows exactly: an ordinate fixed by a row (a springing, a hinge) takes its value,
+    a symmetric pair its mean. Solvers meet equalities only to their tolerance (about 1e-8 m)."""
+    y = y.copy()
+    eq = structure.equality.tocsr()
+    for r in range(eq.shape[0]):
+        cols, vals = eq.indices[eq.indptr[r]:eq.indptr[r + 1]], eq.data[eq.indptr[r]:eq.indptr[r + 1]]
+        if cols.size == 1:
+            y[cols[0]] = data.g[r] / vals[0]
+        elif cols.size == 2 and np.isclose(vals[0], -vals[1]) and data.g[r] == 0.0:
+            y[cols] = y[cols].mean()
+    return y
 
 
 def _run(problem, solver: str) -> str:

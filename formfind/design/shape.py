@@ -509,12 +509,12 @@ def _sequential(case: Case, axis: Axis, section: Section, setup: _Setup) -> Shap
         half = _half_depth(section, axis)
         data = ProgramData(a=a, h=h, c=_weights(f.objective, h, response, f.kern_fraction), w=_tributary(axis),
                            g=setup.g, q=_rhs(setup, y, half, radius), jac=jac, x=x)
-        sol = _solve(setup, data, y, None, select=False)
+        sol = _solve(setup, data, y, None)
         total_time += sol.solve_time_s
         if sol.y is None:
             # the trust region is for stability, not feasibility: open it if it shuts out every axis
             data = replace(data, q=_rhs(setup, y, half, 10.0 * axis.span_m))
-            sol = _solve(setup, data, y, None, select=False)
+            sol = _solve(setup, data, y, None)
             total_time += sol.solve_time_s
         if sol.y is None:
             raise FormFindingError(_infeasible_message(case, setup, data, sol))

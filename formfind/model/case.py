@@ -22,6 +22,8 @@ import numpy as np
 
 from formfind.enums import (
     ActionKind,
+    DrawingUnit,
+    DxfVersion,
     FillReference,
     LoadDirection,
     Objective,
@@ -122,6 +124,16 @@ class AnalysisSettings:
 
 
 @dataclass(frozen=True)
+class OutputSettings:
+    """Drawing and table settings (see `formfind.model.schema.OUTPUTS`)."""
+
+    drawing_unit: DrawingUnit = DrawingUnit.MM
+    dxf_version: DxfVersion = DxfVersion.R2010
+    setting_out_interval_m: float = 1.0
+    station_label_interval_m: float = 5.0
+
+
+@dataclass(frozen=True)
 class FindSettings:
     """Form-finding settings (see `formfind.model.schema.FIND`). Lengths in m.
 
@@ -166,6 +178,7 @@ class Case:
     combinations: tuple[Combination, ...]
     analysis: AnalysisSettings = AnalysisSettings()
     find: FindSettings = FindSettings()
+    outputs: OutputSettings = OutputSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
 
@@ -267,6 +280,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     stations = section(schema.STATIONS, required=False)
     settings = section(schema.ANALYSIS, required=False)
     find_raw = section(schema.FIND, required=False)
+    outputs_raw = section(schema.OUTPUTS, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     find = _find(find_raw, geometry, rib, cases, combinations, file)
@@ -282,6 +296,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         combinations=combinations,
         analysis=AnalysisSettings(**settings),
         find=find,
+        outputs=OutputSettings(**outputs_raw),
         source=file,
         defaults_used=tuple(defaults),
     )

@@ -16,6 +16,8 @@ from typing import Any
 
 from formfind.enums import (
     ActionKind,
+    DrawingUnit,
+    DxfVersion,
     FillReference,
     LoadDirection,
     Objective,
@@ -255,6 +257,20 @@ FIND = Table(
     ),
 )
 
+OUTPUTS = Table(
+    "outputs",
+    "Drawings and tables.",
+    (
+        Key("drawing_unit", DrawingUnit, "Unit of the DXF drawing (written to its header and noted on it).",
+            default=DrawingUnit.MM.value),
+        Key("dxf_version", DxfVersion, "DXF version of the drawing.", default=DxfVersion.R2010.value),
+        Key("setting_out_interval_m", "number", "Spacing in x of the setting-out table's points.", "m",
+            default=1.0, positive=True),
+        Key("station_label_interval_m", "number", "Spacing in x of the labelled station ticks on the drawing.",
+            "m", default=5.0, positive=True),
+    ),
+)
+
 CASES = Table(
     "cases",
     "Load cases, one [[cases]] table each, holding a list of [[cases.loads]].",
@@ -363,7 +379,8 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CASES, COMBINATIONS)
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, OUTPUTS, CASES,
+                                 COMBINATIONS)
 
 
 def _fail(file: str, path: str, expected: str) -> CaseError:

@@ -285,3 +285,22 @@ def shape_json(result: ShapeResult, case_name: str) -> str:
         },
         indent=None,
     )
+
+
+def setting_out_csv(axis: Axis, section: SectionAlong, interval_m: float) -> str:
+    """Setting-out points every ``interval_m`` of x (and at both springings), on the smooth axis.
+
+    Columns: point, x, y, tangent angle (deg), arc length from the left springing, rib depth, and the
+    intrados and extrados points normal to the axis. Between stations the axis is the cubic Hermite
+    curve through the stations' ordinates and tangents.
+    """
+    x = np.arange(axis.x[0], axis.x[-1], interval_m)
+    x = np.unique(np.concatenate([x, [axis.x[-1]]]))
+    fine = axis.resample(x)
+    depth = np.interp(x, axis.x, section.depth_m)
+    intra, extra = fine.intrados(depth), fine.extrados(depth)
+    numbers = np.column_stack([fine.x, fine.y, np.degrees(fine.theta), fine.arc_length, depth,
+                               intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
+    header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
+              "extrados_x_m", "extrados_y_m"]
+    return _rows_csv(header, [list(range(fine.count))], numbers)

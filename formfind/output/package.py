@@ -1,0 +1,133 @@
+"""Everything a run writes, in one place: tables, the drawing, the diagrams and a manifest.
+
+All files are first produced in memory; the output folder is then checked once (nothing is
+overwritten without permission), every file is written to a temporary name and renamed into place,
+and ``manifest.json`` lists each file with its size and SHA-256 last. Nothing here computes mechanics:
+it reads `ShapeResult` and `CaseAnalysis` (thrust lines come from `formfind.analysis.response`).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+from pathlib import Path
+
+import numpy as np
+
+from formfind import __version__
+from formfind.analysis.engine import CaseAnalysis
+from formfind.analysis.response import envelopes, thrust_line
+from formfind.design.shape import ShapeResult, governing_groups
+from formfind.enums import SupportKind
+from formfind.model.case import Case
+from formfind.output import files, plots, tables
+from formfind.output.dxf import DrawingContent, build_drawing
+
+MAX_THRUST_LINES = 4
+
+
+def _figure_bytes(ax) -> dict[str, bytes]:
+    fig = ax.figure
+    fig.tight_layout()
+    out = {}
+    for fmt in ("png", "svg"):
+        buf = io.BytesIO()
+        fig.savefig(buf, format=fmt, metadata={"Date": None} if fmt == "svg" else None)
+        out[fmt] = buf.getvalue()
+    return out
+
+
+def _thrust_lines(case: Case, analysis: CaseAnalysis) -> tuple[tuple[str, np.ndarray], ...]:
+    """Thrust lines of the governing combinations (their first state), at most four."""
+    axis = analysis.axis
+    response = analysis.combinations if analysis.combinations.count else analysis.cases
+    wanted = set(governing_groups(case))
+    lines = []
+    for group in dict.fromkeys(response.groups):
+        if wanted and group not in wanted:
+            continue
+        k = response.groups.index(group)
+        lines.append((group, thrust_line(axis.x, axis.y, axis.theta, response.M[k], response.N[k])))
+    return tuple(lines[:MAX_THRUST_LINES])
+
+
+def drawing_bytes(case: Case, analysis: CaseAnalysis) -> bytes:
+    """The DXF drawing of the analysed axis."""
+    axis = analysis.axis
+    hinge = case.hinge_station(axis) if case.supports.kind is SupportKind.THREE_HINGED else None
+    content = DrawingContent(case.name, case.title, axis, analysis.section.depth_m, hinge,
+                             _thrust_lines(case, analysis), case.find.clearance, case.find.envelope)
+    doc = build_drawing(content, case.outputs.drawing_unit, case.outputs.dxf_version.value,
+                        case.outputs.station_label_interval_m)
+    stream = io.StringIO()
+    doc.write(stream)
+    return stream.getvalue().encode("utf-8")
+
+
+def figure_files(case: Case, analysis: CaseAnalysis) -> dict[str, bytes]:
+    """The diagrams as PNG and SVG bytes, by file name."""
+    axis = analysis.axis
+    response = analysis.combinations if analysis.combinations.count else analysis.cases
+    out: dict[str, bytes] = {}
+
+    def add(stem: str, ax) -> None:
+        for fmt, data in _figure_bytes(ax).items():
+            out[f"{stem}.{fmt}"] = data
+
+    add("fig-axis", plots.plot_axis(axis, analysis.section.depth_m, _thrust_lines(case, analysis),
+                                   case.find.clearance, case.find.envelope))
+    envs = envelopes(response)
+    worst = max(envs, key=lambda e: float(np.abs(np.concatenate([e.maximum[2], e.minimum[2]])).max()))
+    k = response.groups.index(worst.group)
+    add("fig-moment-along", plots.plot_along_arch(axis, response.M[k], "M", worst.group))
+    for e, effect in enumerate(("N", "V", "M")):
+        ax = plots.new_axes()
+        for env in envs[:6]:
+            plots.plot_envelope(axis.x, env.maximum[e], env.minimum[e], effect, env.group, ax=ax)
+        add(f"fig-envelope-{effect}", ax)
+    if analysis.buckling:
+        critical = min(analysis.buckling, key=lambda b: b.critical_factor)
+        if critical.factors.size:
+            add("fig-buckling", plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
+                                                         critical.symmetry[0]))
+    return out
+
+
+def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None,
+                all_states: bool = False) -> dict[str, bytes]:
+    """Every output file's bytes, by name (the manifest is added when writing)."""
+    out: dict[str, bytes] = {}
+    if shape is not None:
+        section = case.section.at(shape.axis)
+        out["shape.json"] = tables.shape_json(shape, case.name).encode()
+        out["axis.csv"] = tables.axis_csv(shape.axis, section).encode()
+        out["setting-out.csv"] = tables.setting_out_csv(shape.axis, section,
+                                                        case.outputs.setting_out_interval_m).encode()
+    if analysis is not None:
+        out["analysis.json"] = tables.analysis_json(analysis).encode()
+        out["forces.csv"] = tables.forces_csv(analysis).encode()
+        out["reactions.csv"] = tables.reactions_csv(analysis).encode()
+        out["summary.csv"] = tables.summary_csv(analysis).encode()
+        out["buckling.csv"] = tables.buckling_csv(analysis).encode()
+        if all_states:
+            out["states.csv"] = tables.states_csv(analysis).encode()
+        if shape is None:
+            out["setting-out.csv"] = tables.setting_out_csv(analysis.axis, analysis.section,
+                                                            case.outputs.setting_out_interval_m).encode()
+        out["axis.dxf"] = drawing_bytes(case, analysis)
+        out.update(figure_files(case, analysis))
+    return out
+
+
+def write_package(folder: Path, contents: dict[str, bytes], overwrite: bool) -> list[Path]:
+    """Write every file atomically, then ``manifest.json``; refuse to overwrite unless asked."""
+    names = sorted(contents) + ["manifest.json"]
+    files.prepare_folder(folder, names, overwrite)
+    written = []
+    manifest = {"formfind_version": __version__, "files": []}
+    for name in sorted(contents):
+        data = contents[name]
+        written.append(files.write_bytes(folder / name, data))
+        manifest["files"].append({"name": name, "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()})
+    written.append(files.write_text(folder / "manifest.json", tables.dumps(manifest, indent=2)))
+    return written

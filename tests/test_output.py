@@ -1,0 +1,127 @@
+"""Outputs: the DXF drawing round-trips through ezdxf, renders, and matches the axis; diagrams are
+not blank; the package writes a manifest with true hashes and never leaves partial files."""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import json
+from dataclasses import replace
+
+import numpy as np
+import pytest
+
+from formfind.analysis.engine import analyse
+from formfind.enums import DrawingUnit
+from formfind.model.case import StationSettings, load_case
+from formfind.output import plots
+from formfind.output.dxf import LAYERS, DrawingContent, build_drawing
+from formfind.output.package import build_files, write_package
+from formfind.output.tables import setting_out_csv
+from tests.conftest import ROOT
+
+SPLINE_TOL_OF_SPAN = 1e-6  # the control-point spline interpolates the stations: distance ~ round-off
+
+
+@pytest.fixture(scope="module")
+def footbridge():
+    case = load_case(ROOT / "cases" / "footbridge.toml")
+    case = replace(case, stations=StationSettings(41, case.stations.spacing))
+    return case, analyse(case)
+
+
+def _reload(doc):
+    import ezdxf
+
+    stream = io.StringIO()
+    doc.write(stream)
+    return ezdxf.read(io.StringIO(stream.getvalue()))
+
+
+@pytest.mark.parametrize(("unit", "scale", "insunits"), [(DrawingUnit.MM, 1000.0, 4), (DrawingUnit.M, 1.0, 6)])
+def test_dxf_round_trip(footbridge, unit, scale, insunits):
+    case, result = footbridge
+    axis = result.axis
+    content = DrawingContent(case.name, case.title, axis, result.section.depth_m, case.hinge_station(axis))
+    doc = _reload(build_drawing(content, unit, "R2010"))
+    assert doc.dxfversion == "AC1024"  # R2010
+    assert doc.header["$INSUNITS"] == insunits and doc.header["$MEASUREMENT"] == 1
+    assert not doc.audit().has_errors
+    for layer in LAYERS:
+        assert layer.name in doc.layers
+    msp = doc.modelspace()
+    axis_lines = [e for e in msp.query("LWPOLYLINE") if e.dxf.layer == "FF_AXIS"]
+    vertices = np.array([p[:2] for p in axis_lines[0].get_points()])
+    np.testing.assert_allclose(vertices, np.stack([axis.x, axis.y], axis=-1) * scale, atol=1e-9 * scale)
+    spline = msp.query("SPLINE")[0]
+    assert len(spline.fit_points) == 0 and len(spline.control_points) >= axis.count  # control points, not fits
+    curve = spline.construction_tool()
+    dense = np.array([(v.x, v.y) for v in curve.approximate(20000)])
+    a, b = dense[:-1], dense[1:]
+    ab = b - a
+    for p in np.stack([axis.x, axis.y], axis=-1) * scale:
+        # distance to the densely sampled curve, segment by segment (sampling error ~ 1e-9 of the span)
+        t = np.clip(np.sum((p - a) * ab, axis=1) / np.sum(ab * ab, axis=1), 0.0, 1.0)
+        distance = np.min(np.hypot(*(a + t[:, None] * ab - p).T))
+        assert distance <= SPLINE_TOL_OF_SPAN * axis.span_m * scale
+
+
+def test_dxf_renders_to_a_non_blank_image(footbridge, tmp_path):
+    import matplotlib.image
+    from ezdxf.addons.drawing import matplotlib as draw
+
+    case, result = footbridge
+    axis = result.axis
+    doc = build_drawing(DrawingContent(case.name, case.title, axis, result.section.depth_m, None))
+    target = tmp_path / "drawing.png"
+    draw.qsave(doc.modelspace(), str(target))
+    image = matplotlib.image.imread(str(target))
+    assert image.std() > 0.01
+
+
+def test_diagrams_are_not_blank(footbridge, tmp_path):
+    import matplotlib.image
+
+    case, result = footbridge
+    axis = result.axis
+    ax = plots.plot_along_arch(axis, result.combinations.M[0], "M", "first combination")
+    paths = plots.save_figure(ax, tmp_path / "m")
+    image = matplotlib.image.imread(str(paths[0]))
+    assert image.std() > 0.01
+    assert paths[1].read_text().lstrip().startswith("<?xml") and "<svg" in paths[1].read_text()
+    from formfind.analysis.engine import frame_model
+    from formfind.analysis.frame import influence_lines
+
+    il = influence_lines(frame_model(case, axis, result.section))
+    ax = plots.plot_influence_line(axis.x, il.M[:, axis.count // 4], "M at the quarter point", "kNm")
+    assert ax.get_lines()
+
+
+def test_package_writes_manifest_with_true_hashes_and_refuses_to_overwrite(footbridge, tmp_path):
+    case, result = footbridge
+    contents = build_files(case, None, result)
+    assert {"axis.dxf", "forces.csv", "fig-axis.png", "fig-axis.svg", "setting-out.csv"} <= set(contents)
+    written = write_package(tmp_path / "out", contents, overwrite=False)
+    manifest = json.loads((tmp_path / "out" / "manifest.json").read_text())
+    for entry in manifest["files"]:
+        data = (tmp_path / "out" / entry["name"]).read_bytes()
+        assert hashlib.sha256(data).hexdigest() == entry["sha256"] and len(data) == entry["bytes"]
+    assert len(written) == len(contents) + 1
+    assert not list((tmp_path / "out").glob("*.part"))
+    from formfind.errors import OutputError
+
+    with pytest.raises(OutputError, match="--overwrite"):
+        write_package(tmp_path / "out", contents, overwrite=False)
+
+
+def test_setting_out_table_lies_on_the_axis(footbridge):
+    case, result = footbridge
+    axis = result.axis
+    text = setting_out_csv(axis, result.section, interval_m=0.9)  # a station every 0.9 m
+    rows = np.array([[float(v) for v in line.split(",")[1:]] for line in text.splitlines()[1:]])
+    x, y = rows[:, 0], rows[:, 1]
+    assert x[0] == 0.0 and x[-1] == pytest.approx(axis.span_m)
+    on_station = np.isin(np.round(x, 9), np.round(axis.x, 9))
+    np.testing.assert_allclose(y[on_station], np.interp(x[on_station], axis.x, axis.y), atol=1e-12)
+    # depth normal to the axis between intrados and extrados
+    np.testing.assert_allclose(np.hypot(rows[:, 7] - rows[:, 5], rows[:, 8] - rows[:, 6]), rows[:, 4], rtol=1e-9)
