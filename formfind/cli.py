@@ -8,6 +8,7 @@ Exit codes (also in the README):
     4  the analysis could not produce a trustworthy result (mechanism, failed verification)
     5  an output could not be written, or would overwrite earlier outputs without --overwrite
     6  form finding failed: conflicting constraints, a solver failure, or no convergence
+    7  a design check failed (the outputs, the verdict table among them, are written)
 """
 
 from __future__ import annotations
@@ -24,6 +25,7 @@ from formfind.errors import FormfindError
 
 EXIT_OK = 0
 EXIT_INTERNAL = 1
+EXIT_CHECK_FAILED = 7
 CAUTION_LINE = (
     "Caution: an aid to a qualified engineer; local codes and licensed practice govern; "
     "example load factors are not code values."
@@ -36,7 +38,7 @@ def _parser() -> argparse.ArgumentParser:
         prog="formfind",
         description="Find and check arch axes. Units: m, kN, kNm, degC.",
         epilog="Exit codes: 0 ok, 1 internal error, 2 usage, 3 bad case file, 4 analysis failed, "
-        "5 output not written, 6 form finding failed.",
+        "5 output not written, 6 form finding failed, 7 a design check failed.",
     )
     parser.add_argument("--version", action="version", version=f"formfind {__version__}")
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -46,9 +48,10 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("-v", "--verbose", action="store_true", help="also list the defaults filled in")
 
     for name, text in (
-        ("run", "the whole job on a case: find the axis, analyse it, write every output"),
+        ("run", "the whole job on a case: find the axis, analyse and check it, write every output"),
         ("find", "find the axis of least bending for the governing loads ([find] in the case file)"),
         ("analyse", "analyse the case's given axis under all cases and combinations"),
+        ("check", "analyse and check the case's given axis; print the verdict table"),
     ):
         p = sub.add_parser(name, help=text, description=text)
         p.add_argument("case", type=Path, help="case file (TOML)")
@@ -74,7 +77,7 @@ def run_cli(argv: list[str] | None = None) -> int:
     try:
         if args.command == "validate":
             return _validate(args)
-        if args.command in ("run", "analyse", "find"):
+        if args.command in ("run", "analyse", "find", "check"):
             return _job(args)
         if args.command == "keys":
             from formfind.model.schema import reference_markdown
@@ -157,18 +160,40 @@ def _job(args: argparse.Namespace) -> int:
         if shape.section != case.section:  # min_depth: the found depth is the rib from here on
             case = replace(case, section=shape.section)
     result = None
-    if args.command in ("analyse", "run"):
+    checks = None
+    if args.command in ("analyse", "run", "check"):
         result = analyse(case, axis=axis, buckling=False if args.no_buckling else None)
-    contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False))
+    if args.command in ("run", "check"):
+        from formfind.design.check import check
+
+        checks = check(case, result)
+    contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False), checks=checks)
     written = write_package(folder, contents, args.overwrite)
     if not args.quiet:
         if shape is not None:
             _print_shape(shape)
         if result is not None:
             _print_summary(result)
+        if checks is not None:
+            _print_checks(checks)
         print(f"wrote {len(written)} files to {folder}/ (manifest.json lists them with SHA-256)")
         print(CAUTION_LINE)
+    if checks is not None and not checks.passed:
+        return EXIT_CHECK_FAILED
     return EXIT_OK
+
+
+def _print_checks(checks) -> None:
+    print(f"{'check':<34} {'value':>11} {'limit':>10} {'unit':<4} {'util':>6}  {'governing':<24} {'x m':>6}  verdict")
+    for r in checks.rows:
+        if r.verdict == "info":
+            continue
+        limit = "" if r.limit is None else f"{r.limit:.4g}"
+        util = "" if r.utilisation is None else f"{r.utilisation:.2f}"
+        where = "" if r.x_m is None else f"{r.x_m:.2f}"
+        print(f"{r.name[:34]:<34} {r.value:>11.4g} {limit:>10} {r.unit:<4} {util:>6}  {r.combination[:24]:<24} "
+              f"{where:>6}  {r.verdict.upper()}{'  ' + r.note if r.note else ''}")
+    print("verdict: " + ("all checks pass" if checks.passed else "SOME CHECKS FAIL"))
 
 
 def _print_shape(shape) -> None:

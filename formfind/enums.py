@@ -113,3 +113,11 @@ class DxfVersion(StrEnum):
     R2010 = "R2010"
     R2013 = "R2013"
     R2018 = "R2018"
+
+
+class EccentricityLimit(StrEnum):
+    """How far from the axis the thrust may act in a section check."""
+
+    KERN = "kern"  # within the kern: no tension (W / A; depth / 6 for a rectangle)
+    BOUNDARY = "boundary"  # within the section (depth / 2): a no-tension ring that has not yet hinged
+    NONE = "none"  # no limit (reinforced or steel ribs: the stress check governs)

@@ -263,6 +263,12 @@ def _setup(case: Case, x: np.ndarray, y0: np.ndarray, states: int, iterative: bo
         d1 = sp.diags([-np.ones(n - 1), np.ones(n - 1)], [0, 1], shape=(n - 1, n)).tocsr()
         blocks.append(("slope", sp.vstack([d1, -d1]).tocsr()))
         q["slope"] = np.concatenate([f.max_slope * dx, f.max_slope * dx])
+    if f.concave:
+        h0, h1 = dx[:-1], dx[1:]
+        mean = 0.5 * (h0 + h1)
+        blocks.append(("concave", sp.diags([1 / (h0 * mean), -(1 / h0 + 1 / h1) / mean, 1 / (h1 * mean)], [0, 1, 2],
+                                           shape=(n - 2, n)).tocsr()))
+        q["concave"] = np.zeros(n - 2)
     if f.max_curvature_per_m is not None:
         h0, h1 = dx[:-1], dx[1:]
         mean = 0.5 * (h0 + h1)
@@ -394,7 +400,9 @@ def _exact(case: Case, axis: Axis, section: Section, setup: _Setup, program: For
         half = _half_depth(section, current)
         if setup.separable:
             y_new, value, _ = _solve_separable(setup, a, h, half, x)
-        else:
+            if case.find.concave and not _is_concave(x, y_new):
+                setup = replace(setup, separable=False)  # the per-station optimum sags: solve with the bound
+        if not setup.separable:
             data = ProgramData(a=a, h=h, c=_weights(f.objective, h, response, f.kern_fraction), w=_tributary(axis),
                                g=setup.g, q=_rhs(setup, y, half, 0.0), x=x)
             sol = _solve(setup, data, y, program)
@@ -594,6 +602,12 @@ def _sequential(case: Case, axis: Axis, section: Section, setup: _Setup) -> Shap
     if last is None:
         raise FormFindingError(f"form finding: the program at the found axis could not be solved ({certificate.status})")
     return _result(case, axis, response, loads, setup, last, history, total_time, section, local=True)
+
+
+def _is_concave(x: np.ndarray, y: np.ndarray) -> bool:
+    """True if d2y/dx2 <= 0 at every interior station (to round-off)."""
+    slope = np.diff(y) / np.diff(x)
+    return bool(np.all(np.diff(slope) <= 1e-9 * max(1.0, float(np.abs(slope).max()))))
 
 
 def _half_depth(section: Section, axis: Axis) -> np.ndarray:

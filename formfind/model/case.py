@@ -24,6 +24,7 @@ from formfind.enums import (
     ActionKind,
     DrawingUnit,
     DxfVersion,
+    EccentricityLimit,
     FillReference,
     LoadDirection,
     Objective,
@@ -124,6 +125,18 @@ class AnalysisSettings:
 
 
 @dataclass(frozen=True)
+class CheckSettings:
+    """Design-check limits (see `formfind.model.schema.CHECK`); stresses in kN/m2 inside."""
+
+    compression_limit_kN_m2: float | None = None
+    tension_limit_kN_m2: float | None = None
+    eccentricity_limit: EccentricityLimit = EccentricityLimit.NONE
+    min_buckling_factor: float = 1.0
+    second_order_below: float = 10.0
+    patterned_load_kN_m: float | None = None
+
+
+@dataclass(frozen=True)
 class OutputSettings:
     """Drawing and table settings (see `formfind.model.schema.OUTPUTS`)."""
 
@@ -146,6 +159,7 @@ class FindSettings:
     rise_min_m: float | None = None
     rise_max_m: float | None = None
     symmetric: bool = False
+    concave: bool = True
     clearance: tuple[tuple[float, float], ...] = ()
     envelope: tuple[tuple[float, float], ...] = ()
     max_slope: float | None = None
@@ -179,6 +193,7 @@ class Case:
     analysis: AnalysisSettings = AnalysisSettings()
     find: FindSettings = FindSettings()
     outputs: OutputSettings = OutputSettings()
+    check: CheckSettings = CheckSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
 
@@ -281,6 +296,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     settings = section(schema.ANALYSIS, required=False)
     find_raw = section(schema.FIND, required=False)
     outputs_raw = section(schema.OUTPUTS, required=False)
+    check_raw = section(schema.CHECK, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     find = _find(find_raw, geometry, rib, cases, combinations, file)
@@ -297,6 +313,16 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         analysis=AnalysisSettings(**settings),
         find=find,
         outputs=OutputSettings(**outputs_raw),
+        check=CheckSettings(
+            compression_limit_kN_m2=None if check_raw["compression_limit_MPa"] is None
+            else check_raw["compression_limit_MPa"] * KN_M2_PER_MPA,
+            tension_limit_kN_m2=None if check_raw["tension_limit_MPa"] is None
+            else check_raw["tension_limit_MPa"] * KN_M2_PER_MPA,
+            eccentricity_limit=check_raw["eccentricity_limit"],
+            min_buckling_factor=check_raw["min_buckling_factor"],
+            second_order_below=check_raw["second_order_below"],
+            patterned_load_kN_m=check_raw["patterned_load_kN_m"],
+        ),
         source=file,
         defaults_used=tuple(defaults),
     )
@@ -510,6 +536,7 @@ def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[Load
         rise_min_m=lo,
         rise_max_m=hi,
         symmetric=f["symmetric"],
+        concave=f["concave"],
         clearance=_polyline(f["clearance_x_m"], f["clearance_y_m"], span, file, "clearance"),
         envelope=_polyline(f["envelope_x_m"], f["envelope_y_m"], span, file, "envelope"),
         max_slope=f["max_slope"],

@@ -18,6 +18,7 @@ from formfind.enums import (
     ActionKind,
     DrawingUnit,
     DxfVersion,
+    EccentricityLimit,
     FillReference,
     LoadDirection,
     Objective,
@@ -235,6 +236,9 @@ FIND = Table(
         Key("rise_max_m", "number", "Greatest rise above the springing chord anywhere; default: the "
             "geometry's rise.", "m", default=None, positive=True),
         Key("symmetric", "boolean", "Keep the axis symmetric about midspan.", default=False),
+        Key("concave", "boolean", "Keep the axis concave (d2y/dx2 <= 0 everywhere). Funiculars of downward "
+            "loads are; it also stops the optimiser bending an indeterminate rib locally to tune its "
+            "redundants. Switch off for axes that must sag somewhere.", default=True),
         Key("clearance_x_m", "numbers", "Abscissae of a clearance line the intrados must stay above.", "m",
             default=None),
         Key("clearance_y_m", "numbers", "Its levels; the intrados is measured vertically.", "m", default=None),
@@ -268,6 +272,26 @@ OUTPUTS = Table(
             default=1.0, positive=True),
         Key("station_label_interval_m", "number", "Spacing in x of the labelled station ticks on the drawing.",
             "m", default=5.0, positive=True),
+    ),
+)
+
+CHECK = Table(
+    "check",
+    "Design checks of the axis under every combination. The limits are the user's, from the governing "
+    "code; formfind ships none.",
+    (
+        Key("compression_limit_MPa", "number", "Largest compressive stress allowed at an extreme fibre.", "MPa",
+            default=None, positive=True),
+        Key("tension_limit_MPa", "number", "Largest tensile stress allowed at an extreme fibre (0: none).", "MPa",
+            default=None, minimum=0.0),
+        Key("eccentricity_limit", EccentricityLimit, "Where the thrust must act: within the kern, within the "
+            "section, or anywhere.", default=EccentricityLimit.NONE.value),
+        Key("min_buckling_factor", "number", "Least in-plane buckling factor of every combination.",
+            default=1.0, positive=True),
+        Key("second_order_below", "number", "Buckling factors below this amplify moments by "
+            "1 / (1 - 1/alpha) (10 for elastic analysis is common practice).", default=10.0, positive=True),
+        Key("patterned_load_kN_m", "number", "Intensity of a patterned live load (per horizontal metre) "
+            "placed where the influence lines are adverse.", "kN/m", default=None, positive=True),
     ),
 )
 
@@ -379,8 +403,8 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, OUTPUTS, CASES,
-                                 COMBINATIONS)
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, OUTPUTS,
+                                 CASES, COMBINATIONS)
 
 
 def _fail(file: str, path: str, expected: str) -> CaseError:

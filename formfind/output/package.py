@@ -47,7 +47,11 @@ def _thrust_lines(case: Case, analysis: CaseAnalysis) -> tuple[tuple[str, np.nda
         if wanted and group not in wanted:
             continue
         k = response.groups.index(group)
-        lines.append((group, thrust_line(axis.x, axis.y, axis.theta, response.M[k], response.N[k])))
+        line = thrust_line(axis.x, axis.y, axis.theta, response.M[k], response.N[k])
+        # far outside the rib the offset says only "no compression here"; leave a gap in the drawing
+        offset = np.hypot(*(line - np.stack([axis.x, axis.y], axis=-1)).T)
+        line[offset > max(3.0 * float(analysis.section.depth_m.max()), 0.1 * axis.span_m)] = np.nan
+        lines.append((group, line))
     return tuple(lines[:MAX_THRUST_LINES])
 
 
@@ -94,9 +98,12 @@ def figure_files(case: Case, analysis: CaseAnalysis) -> dict[str, bytes]:
 
 
 def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None,
-                all_states: bool = False) -> dict[str, bytes]:
+                all_states: bool = False, checks=None) -> dict[str, bytes]:
     """Every output file's bytes, by name (the manifest is added when writing)."""
     out: dict[str, bytes] = {}
+    if checks is not None:
+        out["checks.csv"] = tables.checks_csv(checks).encode()
+        out["checks.json"] = tables.checks_json(checks, case.name).encode()
     if shape is not None:
         section = case.section.at(shape.axis)
         out["shape.json"] = tables.shape_json(shape, case.name).encode()

@@ -19,6 +19,7 @@ import numpy as np
 from formfind import __version__
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
+from formfind.design.check import CheckResult
 from formfind.design.shape import ShapeResult
 from formfind.model.geometry import Axis
 from formfind.model.section import SectionAlong
@@ -304,3 +305,28 @@ def setting_out_csv(axis: Axis, section: SectionAlong, interval_m: float) -> str
     header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
               "extrados_x_m", "extrados_y_m"]
     return _rows_csv(header, [list(range(fine.count))], numbers)
+
+
+CHECK_HEADER = ["check", "value", "limit", "unit", "utilisation", "combination", "state", "station", "x_m", "verdict",
+                "note"]
+
+
+def _check_cells(row) -> list[Any]:
+    return [row.name, row.value, row.limit, row.unit, row.utilisation, row.combination, row.state, row.station,
+            row.x_m, row.verdict, row.note]
+
+
+def checks_csv(result: CheckResult) -> str:
+    """The verdict table as CSV: one row per check."""
+    return _csv(CHECK_HEADER, [["" if v is None else v for v in _check_cells(r)] for r in result.rows])
+
+
+def checks_json(result: CheckResult, case_name: str) -> str:
+    """The verdict table as JSON (infinite values written as null)."""
+    def clean(v):
+        return None if isinstance(v, float) and not math.isfinite(v) else v
+
+    return dumps({
+        "formfind_version": __version__, "case": case_name, "caution": CAUTION, "passed": result.passed,
+        "rows": [dict(zip(CHECK_HEADER, [clean(v) for v in _check_cells(r)], strict=True)) for r in result.rows],
+    }, indent=2)

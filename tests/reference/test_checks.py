@@ -1,0 +1,111 @@
+"""Design checks against textbook results.
+
+Sources (from memory):
+- Hibbeler, *Structural Analysis*, influence lines of three-hinged arches: the influence line of the
+  moment at the quarter point of a three-hinged parabolic arch changes sign at x = 0.4 L; a uniform
+  live load w on its positive part gives the largest sagging moment 3 w L^2 / 160, and on its
+  negative part the largest hogging moment -3 w L^2 / 160 (the two areas are equal, since the full
+  load, whose funicular the parabola is, gives none).
+- Heyman, *The Masonry Arch*; any masonry text: the middle-third rule (no tension while |e| <= d/6)
+  and the cracked-section peak stress 2 N / (3 b (d/2 - e)) beyond it.
+"""
+
+from __future__ import annotations
+
+import tomllib
+
+import numpy as np
+import pytest
+
+from formfind.analysis.engine import analyse, frame_model
+from formfind.analysis.frame import influence_lines
+from formfind.cli import run_cli
+from formfind.design.check import check, cracked_stress, patterned_envelope
+from formfind.model.case import parse_case
+from tests.conftest import BASE_CASE
+
+EXIT_CHECK_FAILED = 7
+
+
+def _arch(stations=81, extra=""):
+    data = tomllib.loads(BASE_CASE + extra)
+    data["stations"] = {"count": stations}
+    return parse_case(data, "t.toml")
+
+
+def test_quarter_point_envelope_of_a_patterned_load_is_3wl2_over_160():
+    case = _arch()
+    axis = case.axis()
+    lines = influence_lines(frame_model(case, axis, case.section.at(axis)))
+    quarter = int(np.argmin(np.abs(axis.x - 5.0)))
+    w, span = 10.0, 20.0
+    maximum, minimum = patterned_envelope(lines.M, axis.x, w)
+    # the influence line changes sign at 0.4 L (three-hinged parabola, quarter point)
+    il = lines.M[:, quarter]
+    crossing = axis.x[np.flatnonzero(np.diff(np.sign(il[1:-1])) != 0)[0] + 1]
+    assert crossing == pytest.approx(0.4 * span, abs=span / 80)
+    # trapezoidal lumping of a kinked influence line: O(h^2), 1e-3 at 80 elements
+    assert maximum[quarter] == pytest.approx(3 * w * span**2 / 160, rel=2e-3)
+    assert minimum[quarter] == pytest.approx(-3 * w * span**2 / 160, rel=2e-3)
+
+
+def test_patterned_envelope_equals_brute_force_over_loaded_lengths():
+    """Every contiguous loaded length on the station grid, and every pair of them (an influence line
+    with two sign changes needs two), never beats the influence-line envelope (common practice)."""
+    case = _arch(stations=31)
+    axis = case.axis()
+    lines = influence_lines(frame_model(case, axis, case.section.at(axis)))
+    w = 7.0
+    maximum, minimum = patterned_envelope(lines.M, axis.x, w)
+    trib = np.zeros(axis.count)
+    trib[:-1] += 0.5 * np.diff(axis.x)
+    trib[1:] += 0.5 * np.diff(axis.x)
+    n = axis.count
+    best_hi = np.full(n, -np.inf)
+    best_lo = np.full(n, np.inf)
+    cumulative = np.vstack([np.zeros(n), np.cumsum(lines.M * (w * trib)[:, None], axis=0)])
+    for a in range(n):
+        for b in range(a + 1, n + 1):
+            effect = cumulative[b] - cumulative[a]
+            best_hi = np.maximum(best_hi, effect)
+            best_lo = np.minimum(best_lo, effect)
+    assert np.all(best_hi <= maximum + 1e-9)
+    assert np.all(best_lo >= minimum - 1e-9)
+    # for a quarter-point-like station (one sign change) one loaded length attains the envelope
+    i = n // 4
+    assert best_hi[i] == pytest.approx(maximum[i], rel=1e-12)
+
+
+def test_middle_third_rule_and_cracked_section_stress():
+    b, d, n = 1.0, 0.6, 300.0
+    area = b * d
+    # within the middle third: linear distribution, zero stress reached exactly at e = d/6
+    assert cracked_stress(n, d / 6, b, d) == pytest.approx(2 * n / area)
+    assert n / area * (1 - 6 * (d / 6) / d) == pytest.approx(0.0)
+    # beyond it: contact length 3 (d/2 - e), triangular block
+    e = 0.2
+    assert cracked_stress(n, e, b, d) == pytest.approx(2 * n / (3 * b * (d / 2 - e)))
+    assert cracked_stress(n, d / 2, b, d) == float("inf")
+
+
+def test_a_circle_under_loads_it_does_not_follow_fails_and_names_where():
+    extra = '\n[check]\ncompression_limit_MPa = 2.0\ntension_limit_MPa = 0.1\neccentricity_limit = "kern"\n'
+    data = tomllib.loads(BASE_CASE + extra)
+    data["geometry"]["shape"] = "circle"
+    case = parse_case(data, "t.toml")
+    result = check(case, analyse(case))
+    assert not result.passed
+    failing = [r for r in result.rows if r.verdict == "fail"]
+    assert {r.name for r in failing} >= {"tensile stress", "eccentricity within the kern"}
+    for row in failing:
+        assert row.combination == "ULS" and row.station is not None and 0.0 <= row.x_m <= 20.0
+
+
+def test_check_command_exits_7_on_failure_and_writes_the_table(write_case, tmp_path, capsys):
+    extra = '\n[check]\ntension_limit_MPa = 0.0\neccentricity_limit = "kern"\n'
+    path = write_case(BASE_CASE.replace('rise_m = 4.0', 'rise_m = 4.0\nshape = "circle"') + extra)
+    code = run_cli(["check", str(path), "--out", str(tmp_path)])
+    out = capsys.readouterr().out
+    assert code == EXIT_CHECK_FAILED and "SOME CHECKS FAIL" in out
+    table = (tmp_path / "small" / "checks.csv").read_text().splitlines()
+    assert table[0].startswith("check,value,limit") and any(",fail," in line for line in table[1:])
