@@ -199,8 +199,8 @@ def _print_checks(checks) -> None:
 def _print_shape(shape) -> None:
     bound = "" if shape.dual_bound is None else f", dual bound {shape.dual_bound:.6g} (gap {shape.gap:.1e})"
     print(f"found axis: {shape.objective.value} = {shape.value:.6g} {shape.unit} by {shape.method} "
-          f"({shape.solver}, {shape.status}){bound}; {len(shape.iterations)} iteration(s); checked by the "
-          f"exact engine: {shape.checked_value:.6g} {shape.unit}")
+          f"({shape.solver}, {shape.status}, {shape.solve_time_s:.2f} s in the solver){bound}; "
+          f"{len(shape.iterations)} iteration(s); checked by the exact engine: {shape.checked_value:.6g} {shape.unit}")
     if shape.governing:
         where = ", ".join(f"{g.state} at x = {g.x_m:.2f} m" for g in shape.governing[:4])
         print(f"governing: {where}{' ...' if len(shape.governing) > 4 else ''}")

@@ -66,6 +66,8 @@ from formfind.model.section import KN_M2_PER_MPA, Section
 
 MAX_FILE_BYTES = 1_000_000
 MAX_TRAIN_POSITIONS = 5000
+MAX_LOADS = 5000  # loads over all cases
+MAX_STATES = 20000  # load states over all cases and combinations (train positions expanded)
 RISE_RATIO_RANGE = (0.01, 1.0)
 
 
@@ -299,6 +301,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     check_raw = section(schema.CHECK, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
+    _limits(cases, combinations, geometry, file)
     find = _find(find_raw, geometry, rib, cases, combinations, file)
     return Case(
         name=meta["name"],
@@ -476,6 +479,18 @@ def _cases(raw: Any, geometry: Geometry, file: str) -> tuple[LoadCase, ...]:
             raise CaseError(file, f"{path}.loads", "at most one axle_train per load case")
         out.append(LoadCase(head["name"], loads, ActionKind(head["action"]), head["description"]))
     return tuple(out)
+
+
+def _limits(cases: tuple[LoadCase, ...], combinations: tuple[Combination, ...], geometry: Geometry, file: str) -> None:
+    loads = sum(len(c.loads) for c in cases)
+    if loads > MAX_LOADS:
+        raise CaseError(file, "cases", f"holds {loads} loads; at most {MAX_LOADS} are allowed")
+    per_case = {c.name: len(c.train.positions(geometry.span_m)) if c.train else 1 for c in cases}
+    states = sum(per_case.values()) + sum(
+        max([per_case[n] for n, _ in combo.factors] or [1]) for combo in combinations)
+    if states > MAX_STATES:
+        raise CaseError(file, "cases", f"expands to {states} load states; at most {MAX_STATES} are allowed "
+                        "(use larger train steps or fewer combinations)")
 
 
 def _combinations(raw: Any, cases: tuple[LoadCase, ...], file: str) -> tuple[Combination, ...]:

@@ -249,7 +249,10 @@ def axis_csv(axis: Axis, section: SectionAlong) -> str:
 
 
 def shape_json(result: ShapeResult, case_name: str) -> str:
-    """The form-finding result: objective, certificate, governing points, active constraints, history."""
+    """The form-finding result: objective, certificate, governing points, active constraints, history.
+
+    The solve time is left out (it is in `ShapeResult` and the printed summary) so that the same case
+    always gives the same bytes."""
     return dumps(
         {
             "formfind_version": __version__,
@@ -265,7 +268,6 @@ def shape_json(result: ShapeResult, case_name: str) -> str:
             "method": result.method,
             "solver": result.solver,
             "status": result.status,
-            "solve_time_s": result.solve_time_s,
             "rib_depth_m": result.section.depth_m,
             "governing_states": list(result.states),
             "governing_points": [

@@ -1,0 +1,192 @@
+"""Robustness: hostile inputs through the real command line, output safety under failure, extreme
+numbers, a fuzz of the case loader, determinism."""
+
+from __future__ import annotations
+
+import json
+import os
+import tomllib
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from formfind.analysis.engine import analyse
+from formfind.errors import AnalysisError, CaseError
+from formfind.model.case import parse_case
+from formfind.output import files
+from formfind.output.package import write_package
+from tests.conftest import BASE_CASE, ROOT, run_formfind
+
+CORPUS = ROOT / "tests" / "corpus"
+
+
+def _expected():
+    rows = []
+    for line in (CORPUS / "EXPECTED.tsv").read_text(encoding="utf-8").splitlines():
+        if line and not line.startswith("#"):
+            name, code, needle = line.split("\t")
+            rows.append((name, int(code), needle))
+    return rows
+
+
+EXPECTED = _expected()
+
+
+def test_the_corpus_is_large_enough():
+    assert len(EXPECTED) >= 40 and all((CORPUS / n).exists() for n, _, _ in EXPECTED)
+
+
+@pytest.mark.parametrize(("name", "code", "needle"), EXPECTED, ids=[e[0] for e in EXPECTED])
+def test_hostile_case_file_through_the_command_line(tmp_path, name, code, needle):
+    out = tmp_path / "out"
+    proc = run_formfind("run", str(CORPUS / name), "--out", str(out))
+    assert proc.returncode == code, proc.stderr
+    assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr, proc.stderr
+    assert needle in proc.stderr, proc.stderr
+    assert not out.exists() or not any(out.rglob("*"))  # nothing created
+
+
+def test_huge_file_is_refused(tmp_path):
+    path = tmp_path / "huge.toml"
+    path.write_text(BASE_CASE + "#" + "x" * 1_100_000 + "\n", encoding="utf-8")
+    proc = run_formfind("validate", str(path))
+    assert proc.returncode == 3 and "limited to" in proc.stderr and proc.stderr.count("\n") == 1
+
+
+def test_contradictory_constraints_exit_6_through_the_command_line(write_case, tmp_path):
+    path = write_case(BASE_CASE + "\n[find]\nclearance_x_m = [8.0, 12.0]\nclearance_y_m = [4.5, 4.5]\n")
+    proc = run_formfind("find", str(path), "--out", str(tmp_path / "o"))
+    assert proc.returncode == 6 and "clearance" in proc.stderr and proc.stderr.count("\n") == 1
+    assert not (tmp_path / "o" / "small").exists() or not any((tmp_path / "o" / "small").iterdir())
+
+
+def test_failure_in_the_middle_of_writing_leaves_no_partial_file(tmp_path, monkeypatch):
+    folder = tmp_path / "out"
+    first = {f"f{i}.txt": f"first {i}".encode() for i in range(6)}
+    write_package(folder, first, overwrite=False)
+    original = os.fsync
+    calls = {"n": 0}
+
+    def failing_fsync(fd):
+        calls["n"] += 1
+        if calls["n"] == 4:
+            raise OSError("disk full (injected)")
+        return original(fd)
+
+    monkeypatch.setattr(os, "fsync", failing_fsync)
+    second = {f"f{i}.txt": f"second {i}".encode() for i in range(6)}
+    with pytest.raises(OSError, match="injected"):
+        write_package(folder, second, overwrite=True)
+    monkeypatch.setattr(os, "fsync", original)
+    assert not list(folder.glob("*.part")) and not list(folder.glob(".*"))
+    contents = [(folder / f"f{i}.txt").read_text() for i in range(6)]
+    assert contents[:3] == ["second 0", "second 1", "second 2"]
+    assert contents[3:] == ["first 3", "first 4", "first 5"]  # earlier outputs intact
+    manifest = json.loads((folder / "manifest.json").read_text())  # still the first run's
+    assert len(manifest["files"]) == 6
+
+
+@pytest.mark.parametrize("name", ["../../escape", "a/b\\c", ".hidden", "x" * 200, ""])
+def test_names_from_case_files_cannot_leave_the_output_folder(tmp_path, name):
+    safe = files.safe_name(name)
+    assert "/" not in safe and "\\" not in safe and not safe.startswith(".") and 0 < len(safe) <= 64
+    assert (tmp_path / safe).resolve().parent == tmp_path.resolve()
+
+
+def _case(ratio=0.2, shape="parabola", area=0.32, inertia=0.017, scale=1.0, kind="two_hinged"):
+    data = tomllib.loads(BASE_CASE)
+    data["geometry"] = {"span_m": 20.0, "rise_m": ratio * 20.0, "shape": shape}
+    data["section"] = {"area_m2": area, "second_moment_m4": inertia, "depth_m": 0.8,
+                       "elastic_modulus_MPa": 30000, "unit_weight_kN_m3": 25}
+    data["cases"][1]["loads"][0]["start_kN_m"] = 5.0 * scale
+    data["cases"][0]["loads"] = [{"type": "point", "x_m": 7.0, "down_kN": 10.0 * scale}]
+    data["stations"] = {"count": 61, "spacing": "arc"}
+    data["supports"] = {"kind": kind} if kind != "three_hinged" else {"kind": kind, "hinge_x_m": 10.0}
+    return parse_case(data, "t.toml")
+
+
+@pytest.mark.parametrize(("ratio", "shape"), [(0.02, "parabola"), (0.1, "circle"), (0.5, "circle"), (0.8, "parabola")])
+@pytest.mark.parametrize("kind", ["two_hinged", "fixed", "three_hinged"])
+def test_very_flat_to_semicircular_arches_give_finite_results(ratio, shape, kind):
+    result = analyse(_case(ratio, shape, kind=kind))
+    for r in (result.cases, result.combinations):
+        assert np.all(np.isfinite(r.M)) and np.all(np.isfinite(r.N)) and np.all(np.isfinite(r.reactions))
+
+
+@pytest.mark.parametrize("ratio_ea", [1e2, 1e4, 1e6, 1e8, 1e10])
+def test_axial_to_bending_stiffness_ratios_give_finite_results_or_a_clear_error(ratio_ea):
+    """EA L^2 / EI from 1e2 to 1e10 (L the span): finite, equilibrated results or an AnalysisError."""
+    inertia = 0.017
+    area = ratio_ea * inertia / 20.0**2
+    try:
+        result = analyse(_case(area=area, inertia=inertia), buckling=False)
+    except AnalysisError as exc:
+        assert "backward error" in str(exc) or "equilibrium" in str(exc)
+        return
+    assert np.all(np.isfinite(result.combinations.M))
+
+
+@pytest.mark.parametrize("scale", [1e-6, 1.0, 1e6])
+def test_loads_from_micro_to_mega_newtons_scale_linearly(scale):
+    base = analyse(_case(scale=1.0), buckling=False).combinations.M
+    scaled = analyse(_case(scale=scale), buckling=False).combinations.M
+    # self-weight does not scale; compare the difference against the pure-load part
+    weight_only = analyse(_case(scale=0.0 + 1e-300), buckling=False).combinations.M
+    np.testing.assert_allclose(scaled - weight_only, scale * (base - weight_only),
+                               atol=1e-7 * max(scale, 1.0) * np.abs(base).max())
+
+
+def test_three_hinged_collinear_hinge_is_a_clear_analysis_error():
+    case = _case(kind="three_hinged")
+    axis = case.axis()
+    flat = axis.__class__(axis.x, np.where(np.abs(axis.x - 10.0) < 1e-9, 0.0, axis.y), axis.theta)
+    with pytest.raises(AnalysisError, match="mechanism"):
+        analyse(case, axis=flat)
+
+
+# --- fuzz: random TOML-like documents never crash the loader ------------------------------------
+scalars = st.one_of(st.none(), st.booleans(), st.integers(-10**6, 10**6), st.floats(allow_nan=True),
+                    st.text(max_size=12))
+values = st.recursive(scalars, lambda children: st.one_of(st.lists(children, max_size=4),
+                                                          st.dictionaries(st.text(max_size=8), children, max_size=4)),
+                      max_leaves=12)
+KEYS = ["case", "geometry", "supports", "section", "stations", "cases", "combinations", "find", "check", "outputs",
+        "name", "span_m", "rise_m", "loads", "type", "x_m", "factors", "kind", "shape", "count"]
+
+
+def _mutate(draw_doc: dict, path: list[str], value) -> dict:
+    node = draw_doc
+    for key in path[:-1]:
+        child = node.get(key) if isinstance(node, dict) else None
+        if not isinstance(child, dict):
+            return draw_doc
+        node = child
+    if isinstance(node, dict):
+        node[path[-1]] = value
+    return draw_doc
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(path=st.lists(st.sampled_from(KEYS), min_size=1, max_size=3), value=values,
+       extra=st.dictionaries(st.sampled_from(KEYS), values, max_size=3))
+def test_fuzzed_documents_give_a_case_or_a_case_error(path, value, extra):
+    document = tomllib.loads(BASE_CASE)
+    document = _mutate(document, path, value)
+    document.update(extra)
+    try:
+        parse_case(document, "fuzz.toml")
+    except CaseError as exc:
+        assert str(exc).startswith("fuzz.toml") and "\n" not in str(exc)
+
+
+def test_the_same_case_run_twice_gives_byte_identical_tables(tmp_path):
+    from formfind.cli import run_cli
+
+    for out in ("a", "b"):
+        assert run_cli(["run", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path / out), "--stations",
+                        "41", "-q", "--no-buckling"]) == 0
+    for path in sorted((tmp_path / "a" / "footbridge").iterdir()):
+        if path.suffix in (".json", ".csv") and path.name != "manifest.json":
+            assert path.read_bytes() == (tmp_path / "b" / "footbridge" / path.name).read_bytes(), path.name
