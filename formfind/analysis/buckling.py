@@ -160,7 +160,7 @@ def buckle(
     Raises:
         AnalysisError: if the eigen-solver does not converge.
     """
-    one = _one_state(loads, state)
+    one = loads.select([state])
     axial = element_axial_forces(model, one)[0]
     kg = geometric_stiffness(model, axial)
     if follow_axis:
@@ -197,18 +197,3 @@ def buckle(
         shapes[m] = shape * np.sign(shape[big, 1] or 1.0)
     symmetry = tuple(_symmetry(model, shapes[m]) for m in range(factors.size))
     return BucklingResult(one.names[0], factors, shapes, symmetry, follow_axis, axial)
-
-
-def _one_state(loads: StationLoads, state: int) -> StationLoads:
-    sel = loads.point_state == state
-    return StationLoads(
-        names=(loads.names[state],),
-        groups=(loads.groups[state],),
-        dist=loads.dist[state : state + 1],
-        point_state=np.zeros(int(sel.sum()), dtype=int),
-        point_x=loads.point_x[sel],
-        point_force=loads.point_force[sel],
-        temperature_uniform_C=loads.temperature_uniform_C[state : state + 1],
-        temperature_difference_C=loads.temperature_difference_C[state : state + 1],
-        support_movement=loads.support_movement[state : state + 1],
-    )

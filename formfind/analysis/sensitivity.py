@@ -101,12 +101,10 @@ def frame_jacobian(model: FrameModel, loads: StationLoads, free: np.ndarray) -> 
         per_element = np.einsum("qem,kem->kqe", a_elem[functionals], dg) / (2 * eps)  # (K, q, E)
         d_redundant[:, :, np.arange(n - 1) + end] += per_element  # the node each element end sits on
     # unit redundant moment fields (state independent) and the explicit part with redundants held
-    zero = _no_loads(loads, n, len(functionals))
-    units = np.zeros((len(functionals), n))
-    for r in range(len(functionals)):
-        red = np.zeros((len(functionals), len(functionals)))
-        red[r, r] = 1.0
-        units[r] = recover_moments(model, axis, _take(zero, r), red[r : r + 1])[0]
+    # unit redundant moment fields: no loads, one redundant at 1
+    count = len(functionals)
+    units = recover_moments(model, axis, StationLoads.from_densities(np.zeros((count, n - 1, 2, 2)), "unit"),
+                            np.eye(count))
     held = redundant_values(model, loads)
     jac = np.einsum("ri,krj->kij", units, d_redundant)
     for j in np.flatnonzero(free):
@@ -130,31 +128,3 @@ def _redundant_rows(model: FrameModel) -> list[int]:
     if model.maps.element.shape[0] > len(model.fixed):  # the tie force is the last functional
         rows.append(model.maps.element.shape[0] - 1)
     return rows
-
-
-def _no_loads(loads: StationLoads, n: int, count: int) -> StationLoads:
-    return StationLoads(
-        names=tuple(f"unit-redundant-{r}" for r in range(count)),
-        groups=("unit",) * count,
-        dist=np.zeros((count, n - 1, 2, 2)),
-        point_state=np.zeros(0, dtype=int),
-        point_x=np.zeros(0),
-        point_force=np.zeros((0, 2)),
-        temperature_uniform_C=np.zeros(count),
-        temperature_difference_C=np.zeros(count),
-        support_movement=np.zeros((count, 2, 3)),
-    )
-
-
-def _take(loads: StationLoads, state: int) -> StationLoads:
-    return StationLoads(
-        names=(loads.names[state],),
-        groups=(loads.groups[state],),
-        dist=loads.dist[state : state + 1],
-        point_state=np.zeros(0, dtype=int),
-        point_x=np.zeros(0),
-        point_force=np.zeros((0, 2)),
-        temperature_uniform_C=loads.temperature_uniform_C[state : state + 1],
-        temperature_difference_C=loads.temperature_difference_C[state : state + 1],
-        support_movement=loads.support_movement[state : state + 1],
-    )

@@ -155,25 +155,8 @@ def governing_loads(case: Case, axis: Axis, section: Section) -> StationLoads:
     for loads in (load_set.combinations, load_set.cases):
         idx = [i for i, g in enumerate(loads.groups) if g in wanted]
         if idx:
-            parts.append(_select(loads, idx))
+            parts.append(loads.select(idx))
     return StationLoads.concatenate(parts, axis.count - 1)
-
-
-def _select(loads: StationLoads, idx: list[int]) -> StationLoads:
-    remap = -np.ones(loads.count, dtype=int)
-    remap[idx] = np.arange(len(idx))
-    keep = remap[loads.point_state] >= 0
-    return StationLoads(
-        names=tuple(loads.names[i] for i in idx),
-        groups=tuple(loads.groups[i] for i in idx),
-        dist=loads.dist[idx],
-        point_state=remap[loads.point_state[keep]],
-        point_x=loads.point_x[keep],
-        point_force=loads.point_force[keep],
-        temperature_uniform_C=loads.temperature_uniform_C[idx],
-        temperature_difference_C=loads.temperature_difference_C[idx],
-        support_movement=loads.support_movement[idx],
-    )
 
 
 def axis_through(x: np.ndarray, y: np.ndarray) -> Axis:
@@ -472,14 +455,7 @@ def _load_jacobian(case: Case, axis: Axis, section: Section, loads: StationLoads
     delta /= 2 * eps
     # the engine is linear in the loads: analyse each (station, case) once, then combine by factors
     cases = len(case.cases)
-    dist = delta.reshape(-1, n - 1, 2, 2)  # (columns x cases)
-    count = dist.shape[0]
-    batch = StationLoads(
-        names=tuple(f"d{i}" for i in range(count)), groups=("d",) * count, dist=dist,
-        point_state=np.zeros(0, dtype=int), point_x=np.zeros(0), point_force=np.zeros((0, 2)),
-        temperature_uniform_C=np.zeros(count), temperature_difference_C=np.zeros(count),
-        support_movement=np.zeros((count, 2, 3)),
-    )
+    batch = StationLoads.from_densities(delta.reshape(-1, n - 1, 2, 2), "d")  # (columns x cases)
     per_case = respond(case, axis, batch, model).M.reshape(columns.size, cases, n)  # (columns, cases, n)
     jac[:, :, columns] = np.einsum("kc,jci->kij", factors, per_case)
     return jac

@@ -217,6 +217,40 @@ class StationLoads:
         np.add.at(total, self.point_state, self.point_force)
         return total
 
+    def select(self, states: list[int]) -> StationLoads:
+        """The given states, in the given order (point loads follow their states)."""
+        idx = np.asarray(states, dtype=int)
+        remap = -np.ones(self.count, dtype=int)
+        remap[idx] = np.arange(idx.size)
+        keep = remap[self.point_state] >= 0
+        return StationLoads(
+            names=tuple(self.names[i] for i in idx),
+            groups=tuple(self.groups[i] for i in idx),
+            dist=self.dist[idx],
+            point_state=remap[self.point_state[keep]],
+            point_x=self.point_x[keep],
+            point_force=self.point_force[keep],
+            temperature_uniform_C=self.temperature_uniform_C[idx],
+            temperature_difference_C=self.temperature_difference_C[idx],
+            support_movement=self.support_movement[idx],
+        )
+
+    @staticmethod
+    def from_densities(dist: np.ndarray, group: str = "batch") -> StationLoads:
+        """States holding only the given distributed densities (states, elements, 2, 2)."""
+        count = dist.shape[0]
+        return StationLoads(
+            names=tuple(f"{group}-{i}" for i in range(count)),
+            groups=(group,) * count,
+            dist=dist,
+            point_state=np.zeros(0, dtype=int),
+            point_x=np.zeros(0),
+            point_force=np.zeros((0, 2)),
+            temperature_uniform_C=np.zeros(count),
+            temperature_difference_C=np.zeros(count),
+            support_movement=np.zeros((count, 2, 3)),
+        )
+
     @staticmethod
     def empty(element_count: int) -> StationLoads:
         """A set of zero states for an axis with ``element_count`` elements."""
