@@ -13,6 +13,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from formfind.analysis.engine import analyse
+from formfind.enums import SupportKind
 from formfind.errors import AnalysisError, CaseError
 from formfind.model.case import parse_case
 from formfind.output import files
@@ -190,3 +191,20 @@ def test_the_same_case_run_twice_gives_byte_identical_tables(tmp_path):
     for path in sorted((tmp_path / "a" / "footbridge").iterdir()):
         if path.suffix in (".json", ".csv") and path.name != "manifest.json":
             assert path.read_bytes() == (tmp_path / "b" / "footbridge" / path.name).read_bytes(), path.name
+
+
+def test_an_ill_conditioned_frame_is_warned_about(caplog):
+    """A very fine mesh of a stocky rib drives the condition estimate past 1e12: a warning names it."""
+    import logging
+
+    from formfind.analysis.frame import build_frame
+    from formfind.model.geometry import Axis, Chord, Parabola, place_stations
+    from formfind.model.section import Section
+
+    curve = Parabola(Chord(40.0), 8.0)
+    axis = Axis.from_curve(curve, place_stations(curve, 6401))
+    section = Section(5.0, 2e-3, 0.6, 2.1e8).at(axis)
+    with caplog.at_level(logging.WARNING, logger="formfind.analysis.frame"):
+        model = build_frame(axis, section, SupportKind.FIXED)
+    assert model.maps.condition_estimate > 1e12
+    assert any("ill-conditioned" in r.message for r in caplog.records)

@@ -109,3 +109,23 @@ def test_check_command_exits_7_on_failure_and_writes_the_table(write_case, tmp_p
     assert code == EXIT_CHECK_FAILED and "SOME CHECKS FAIL" in out
     table = (tmp_path / "small" / "checks.csv").read_text().splitlines()
     assert table[0].startswith("check,value,limit") and any(",fail," in line for line in table[1:])
+
+
+def test_fixed_parabolic_arch_influence_lines_match_the_hingeless_table():
+    """Karnovsky & Lebed, Appendix Table A.19 (hingeless parabolic arches, I = I_c sec(theta); point-load
+    formulas from memory): for a unit load at u = x/L, H = 15 L u^2 (1 - u)^2 / (4 f) and
+    R_A = (1 - u)^2 (1 + 2 u). Tolerance 1e-3: chord discretisation at 80 elements and a rib stiff
+    enough in compression (A_c / I_c = 1e4) for shortening to be negligible."""
+    from formfind.analysis.frame import build_frame
+    from formfind.enums import SectionVariation, SupportKind
+    from formfind.model.geometry import Axis, Chord, Parabola, place_stations
+    from formfind.model.section import Section
+
+    span, rise = 30.0, 6.0
+    curve = Parabola(Chord(span), rise)
+    axis = Axis.from_curve(curve, place_stations(curve, 81))
+    section = Section(200.0, 0.02, 0.8, 2e8, variation=SectionVariation.SECANT).at(axis)
+    lines = influence_lines(build_frame(axis, section, SupportKind.FIXED))
+    u = axis.x / span
+    np.testing.assert_allclose(lines.thrust, 15 * span * u**2 * (1 - u) ** 2 / (4 * rise), atol=1e-3 * span / rise)
+    np.testing.assert_allclose(lines.reactions[:, 0, 1], (1 - u) ** 2 * (1 + 2 * u), atol=1e-3)
