@@ -167,7 +167,8 @@ def _job(args: argparse.Namespace) -> int:
         from formfind.design.check import check
 
         checks = check(case, result)
-    contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False), checks=checks)
+    contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False), checks=checks,
+                           drawings=args.command == "run")
     written = write_package(folder, contents, args.overwrite)
     if not args.quiet:
         if shape is not None:

@@ -98,8 +98,9 @@ def figure_files(case: Case, analysis: CaseAnalysis) -> dict[str, bytes]:
 
 
 def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None,
-                all_states: bool = False, checks=None) -> dict[str, bytes]:
-    """Every output file's bytes, by name (the manifest is added when writing)."""
+                all_states: bool = False, checks=None, drawings: bool = True) -> dict[str, bytes]:
+    """Every output file's bytes, by name (the manifest is added when writing). ``drawings`` adds the
+    DXF and the diagrams (they need an analysis)."""
     out: dict[str, bytes] = {}
     if checks is not None:
         out["checks.csv"] = tables.checks_csv(checks).encode()
@@ -121,8 +122,9 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
         if shape is None:
             out["setting-out.csv"] = tables.setting_out_csv(analysis.axis, analysis.section,
                                                             case.outputs.setting_out_interval_m).encode()
-        out["axis.dxf"] = drawing_bytes(case, analysis)
-        out.update(figure_files(case, analysis))
+        if drawings:
+            out["axis.dxf"] = drawing_bytes(case, analysis)
+            out.update(figure_files(case, analysis))
     return out
 
 
