@@ -7,6 +7,11 @@ Every error carries a complete one-line message; the command line prints it and 
 from __future__ import annotations
 
 
+def one_line(text: str) -> str:
+    """Text safe for a one-line message: control characters (newlines included) escaped."""
+    return "".join(c if c.isprintable() else c.encode("unicode_escape").decode("ascii") for c in str(text))
+
+
 class FormfindError(Exception):
     """Base class of every error formfind raises on purpose."""
 
@@ -26,8 +31,8 @@ class CaseError(FormfindError):
         self.file = file
         self.key = key
         self.expected = expected
-        where = f"{file}: {key}" if key else file
-        super().__init__(f"{where}: {expected}")
+        where = f"{one_line(file)}: {one_line(key)}" if key else one_line(file)
+        super().__init__(f"{where}: {one_line(expected)}")
 
 
 class AnalysisError(FormfindError):

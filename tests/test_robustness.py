@@ -208,3 +208,12 @@ def test_an_ill_conditioned_frame_is_warned_about(caplog):
         model = build_frame(axis, section, SupportKind.FIXED)
     assert model.maps.condition_estimate > 1e12
     assert any("ill-conditioned" in r.message for r in caplog.records)
+
+
+def test_regression_fuzz_key_with_a_newline_stays_one_line():
+    """Found by the fuzz above: a key holding a newline was echoed into a two-line message."""
+    document = tomllib.loads(BASE_CASE)
+    document["case"]["bad\nkey"] = 1
+    with pytest.raises(CaseError) as info:
+        parse_case(document, "fuzz.toml")
+    assert "\n" not in str(info.value) and "bad\\nkey" in str(info.value)
