@@ -217,7 +217,7 @@ def _print_summary(result) -> None:
     print(f"{case.name}: {case.supports.kind.value} {case.geometry.shape.value}, span "
           f"{result.axis.span_m:g} m, rise {result.axis.rise_m:.4g} m, {result.axis.count} stations, "
           f"engine {result.cases.engine}")
-    factors = {b.state.split("@", 1)[0]: b.critical_factor for b in result.buckling}
+    factors = {b.group: b.critical_factor for b in result.buckling}
     header = f"{'set':<5} {'name':<22} {'H kN':>10} {'peak M kNm':>11} {'at x m':>7} " \
              f"{'peak N kN':>10} {'at x m':>7} {'peak V kN':>10} {'at x m':>7} {'buckling':>9}"
     print(header)

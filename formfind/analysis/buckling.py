@@ -39,6 +39,7 @@ class BucklingResult:
 
     Attributes:
         state: name of the reference load state.
+        group: the load case or combination that state belongs to.
         factors: load factors lambda on the reference state, ascending, positive (dimensionless).
         modes: (modes, stations, 3) nodal mode shapes (ux, uy, rotation), each scaled to a largest
             translation of 1.
@@ -48,6 +49,7 @@ class BucklingResult:
     """
 
     state: str
+    group: str
     factors: np.ndarray
     modes: np.ndarray
     symmetry: tuple[str, ...]
@@ -170,7 +172,7 @@ def buckle(
     g_ff = (-kg[free][:, free]).tocsc()
     g_ff = 0.5 * (g_ff + g_ff.T)
     if not np.any(axial < 0.0):
-        return BucklingResult(one.names[0], np.zeros(0), np.zeros((0, model.axis.count, 3)), (), follow_axis, axial)
+        return BucklingResult(one.names[0], one.groups[0], np.zeros(0), np.zeros((0, model.axis.count, 3)), (), follow_axis, axial)
     count = min(modes, free.size - 2)
     try:
         # mu = 1 / lambda: -K_G phi = mu K phi; the largest mu are the smallest positive factors
@@ -196,4 +198,4 @@ def buckle(
         big = np.argmax(np.abs(shape[:, 1]))
         shapes[m] = shape * np.sign(shape[big, 1] or 1.0)
     symmetry = tuple(_symmetry(model, shapes[m]) for m in range(factors.size))
-    return BucklingResult(one.names[0], factors, shapes, symmetry, follow_axis, axial)
+    return BucklingResult(one.names[0], one.groups[0], factors, shapes, symmetry, follow_axis, axial)

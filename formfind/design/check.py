@@ -77,7 +77,7 @@ class CheckResult:
 
 def _amplification(case: Case, analysis: CaseAnalysis, response: Response) -> tuple[np.ndarray, dict[str, float]]:
     """Per state: 1 / (1 - 1/alpha) where the group's buckling factor alpha is below the threshold."""
-    alpha = {b.state.split("@", 1)[0]: b.critical_factor for b in analysis.buckling}
+    alpha = {b.group: b.critical_factor for b in analysis.buckling}
     factors = np.ones(response.count)
     for k, group in enumerate(response.groups):
         a = alpha.get(group, np.inf)

@@ -122,6 +122,7 @@ def analysis_json(analysis: CaseAnalysis) -> str:
             "combinations": _response_json(analysis.combinations),
             "buckling": [
                 {
+                    "group": b.group,
                     "state": b.state,
                     "factors": [float(f) for f in b.factors],
                     "symmetry": list(b.symmetry),
@@ -230,7 +231,7 @@ def buckling_csv(analysis: CaseAnalysis) -> str:
         header += [f"factor_{m + 1}", f"mode_{m + 1}"]
     rows: list[list[Any]] = []
     for b in analysis.buckling:
-        row: list[Any] = [b.state.split("@", 1)[0], b.state, b.follow_axis]
+        row: list[Any] = [b.group, b.state, b.follow_axis]
         for m in range(modes):
             row += [float(b.factors[m]), b.symmetry[m]] if m < b.factors.size else ["", ""]
         rows.append(row)
