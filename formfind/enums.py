@@ -121,3 +121,10 @@ class EccentricityLimit(StrEnum):
     KERN = "kern"  # within the kern: no tension (W / A; depth / 6 for a rectangle)
     BOUNDARY = "boundary"  # within the section (depth / 2): a no-tension ring that has not yet hinged
     NONE = "none"  # no limit (reinforced or steel ribs: the stress check governs)
+
+
+class SecondOrderMethod(StrEnum):
+    """How moments are raised for second-order effects where a buckling factor is low."""
+
+    P_DELTA = "p_delta"  # a geometrically nonlinear solve with the geometric stiffness, iterated
+    AMPLIFICATION = "amplification"  # first-order moments times 1 / (1 - 1/alpha_cr)

@@ -30,6 +30,7 @@ from scipy.sparse.linalg import ArpackNoConvergence, eigsh
 from formfind.analysis.frame import FrameModel, rotation_matrices, solve
 from formfind.analysis.statics import cut_resultants
 from formfind.errors import AnalysisError
+from formfind.model.geometry import Axis
 from formfind.model.loads import StationLoads
 
 
@@ -74,16 +75,24 @@ def element_axial_forces(model: FrameModel, loads: StationLoads) -> np.ndarray:
         tdx, tdy = axis.x[-1] - axis.x[0], axis.y[-1] - axis.y[0]
         tl = np.hypot(tdx, tdy)
         reaction += response.tie_force[:, None] * np.array([tdx / tl, tdy / tl])
+    return axial_from_reactions(axis, loads, reaction, model.cos, model.sin)
+
+
+def axial_from_reactions(axis: Axis, loads: StationLoads, left_force: np.ndarray, cos: np.ndarray,
+                         sin: np.ndarray) -> np.ndarray:
+    """Element axial forces (states, elements), kN, tension positive, from the force (states, 2) that
+    the left support (and a tie) applies to the arch: the resultant of the part left of each
+    element's midpoint, projected on the chord (direction ``cos``, ``sin``)."""
     cuts = cut_resultants(axis, loads)
     fa, fb = loads.dist[:, :, 0, :], loads.dist[:, :, 1, :]
     half = 0.375 * fa + 0.125 * fb  # integral of the density over t in [0, 1/2]
-    left = cuts.force_right[:, :-1] + half + reaction[:, None, :]
+    left = cuts.force_right[:, :-1] + half + left_force[:, None, :]
     if loads.point_x.size:  # point loads inside the first half of their element
         e = np.clip(np.searchsorted(axis.x, loads.point_x, side="right") - 1, 0, axis.count - 2)
         t = (loads.point_x - axis.x[e]) / (axis.x[e + 1] - axis.x[e])
         inner = (t > 1e-12) & (t <= 0.5)
         np.add.at(left, (loads.point_state[inner], e[inner]), loads.point_force[inner])
-    return -(left[..., 0] * model.cos + left[..., 1] * model.sin)
+    return -(left[..., 0] * cos + left[..., 1] * sin)
 
 
 def geometric_stiffness(model: FrameModel, axial: np.ndarray) -> sp.csc_matrix:

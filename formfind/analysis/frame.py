@@ -471,10 +471,14 @@ def _add_local(f: np.ndarray, model: FrameModel, local: np.ndarray) -> None:
 def _prescribed(model: FrameModel, loads: StationLoads) -> np.ndarray:
     """Prescribed displacements of the restrained dofs (states, fixed dofs) from support movements."""
     n = model.axis.count
-    values = np.zeros((loads.count, model.dof_count))
-    values[:, 0:3] = loads.support_movement[:, 0, :]
-    values[:, 3 * (n - 1) : 3 * n] = loads.support_movement[:, 1, :]
-    return values[:, model.fixed]
+    right = 3 * (n - 1)
+    out = np.zeros((loads.count, model.fixed.size))
+    for j, dof in enumerate(model.fixed):  # only the restrained dofs: no (states, dofs) temporary
+        if dof < 3:
+            out[:, j] = loads.support_movement[:, 0, dof]
+        elif right <= dof < right + 3:
+            out[:, j] = loads.support_movement[:, 1, dof - right]
+    return out
 
 
 def functional_values(model: FrameModel, loads: StationLoads) -> np.ndarray:

@@ -8,12 +8,22 @@ Checks (limits from the case file's ``[check]`` table; formfind ships none):
   (depth/2), for ribs that must not crack or must not hinge;
 - the in-plane buckling factor of every combination against a required minimum;
 - second-order effects: where a combination's buckling factor alpha is below ``second_order_below``
-  (10 is common practice for elastic analysis, e.g. EN 1993-1-1 clause 5.2.1), its moments are
-  amplified by 1 / (1 - 1/alpha) in the stress and eccentricity checks, and the row says so;
-- the thrust the abutments must take, per combination (reported, no limit).
+  (10 is common practice for elastic analysis, e.g. EN 1993-1-1 clause 5.2.1), its states are solved
+  again on the deflected arch (P-Delta, `formfind.analysis.second_order`) or, if the case asks for it,
+  their moments are amplified by 1 / (1 - 1/alpha); the rows say which;
+- a patterned live load (``patterned_load_kN_m``): for every station and effect the loaded lengths
+  where the influence line is adverse; its envelope is reported on its own and added, times its
+  factor, to the combinations named in ``patterned_factors``. Fibre stresses are linear in the
+  loads, so their patterned envelopes come from the stresses' own influence lines (exact on the
+  station grid); the eccentricity verdict uses the linear margin |M| + N b <= 0 (b: kern or half
+  depth), also exact, and reports the ratio e/b of the pattern that governs that margin;
+- the thrust the abutments must take, per combination (reported, no limit);
+- unreinforced ribs (``unreinforced = true``): a line of thrust within the ring (reduced by
+  ``min_geometric_factor``) for every state of every combination, the geometric factor of safety,
+  and the collapse load factor of ``collapse_case`` with the hinges of the mechanism
+  (`formfind.design.thrust`).
 
-The envelope of a patterned live load (placed wherever an influence line is adverse) is
-`patterned_envelope`; moving axle trains are enveloped over their positions by the analysis itself.
+Moving axle trains are enveloped over their positions by the analysis itself (one state per position).
 """
 
 from __future__ import annotations
@@ -22,12 +32,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from formfind.analysis import statics
 from formfind.analysis.engine import CaseAnalysis
-from formfind.analysis.response import Response
-from formfind.enums import EccentricityLimit
+from formfind.analysis.frame import influence_lines, unit_loads
+from formfind.analysis.response import EFFECTS, Response
+from formfind.enums import ActionKind, EccentricityLimit, SecondOrderMethod, SupportKind
 from formfind.model.case import Case
+from formfind.model.loads import StationLoads
 
 FAIL, PASS, INFO = "fail", "pass", "info"
+PATTERN = "patterned live load"
+P_DELTA_STATES = 8  # P-Delta solves per combination at most; its other states (train positions) are amplified
 
 
 @dataclass(frozen=True)
@@ -48,20 +63,94 @@ class CheckRow:
 
 
 @dataclass(frozen=True, eq=False)
+class PatternEnvelope:
+    """Envelopes of a uniform load (kN per horizontal metre, downwards) placed wherever adverse.
+
+    Attributes:
+        load_kN_m: the intensity.
+        x: station abscissae (m).
+        contributions: (3 effects [N kN, V kN, M kNm], load stations, stations): the effect at station
+            i of the load lumped at station j; its positive entries are the pattern of the maximum.
+        maximum, minimum: (3, stations) the envelopes (sums of the positive / negative contributions).
+        thrust_max_kN, thrust_min_kN: envelope of the thrust H.
+        reaction_max, reaction_min: (2 supports, 3 [Rx kN, Ry kN, Mz kNm]) envelopes of the reactions.
+    """
+
+    load_kN_m: float
+    x: np.ndarray
+    contributions: np.ndarray
+    maximum: np.ndarray
+    minimum: np.ndarray
+    thrust_max_kN: float
+    thrust_min_kN: float
+    reaction_max: np.ndarray
+    reaction_min: np.ndarray
+
+    def loaded_lengths(self, effect: str, station: int, largest: bool = True) -> list[tuple[float, float]]:
+        """The loaded lengths [(from m, to m), ...] of the pattern giving the max (or min) of ``effect``
+        ('N', 'V' or 'M') at ``station``."""
+        c = self.contributions[EFFECTS.index(effect), :, station]
+        return loaded_lengths(self.x, c > 0 if largest else c < 0)
+
+
+def loaded_lengths(x: np.ndarray, loaded: np.ndarray) -> list[tuple[float, float]]:
+    """Runs of loaded stations as abscissa intervals, each station standing for its tributary length."""
+    edges = np.concatenate([[x[0]], 0.5 * (x[:-1] + x[1:]), [x[-1]]])
+    out = []
+    j = 0
+    while j < loaded.size:
+        if loaded[j]:
+            k = j
+            while k + 1 < loaded.size and loaded[k + 1]:
+                k += 1
+            out.append((float(edges[j]), float(edges[k + 1])))
+            j = k + 1
+        else:
+            j += 1
+    return out
+
+
+def _lengths_text(lengths: list[tuple[float, float]]) -> str:
+    return ", ".join(f"{a:.2f}-{b:.2f} m" for a, b in lengths) or "nowhere"
+
+
+@dataclass(frozen=True)
+class ThrustLineRow:
+    """Thrust-line admissibility of one state of an unreinforced rib (see `formfind.design.thrust`)."""
+
+    group: str
+    state: str
+    admissible: bool
+    geometric_factor: float
+
+
+@dataclass(frozen=True, eq=False)
 class CheckResult:
     """The verdict table and the arrays behind it.
 
     Attributes:
         rows: one per check (and one thrust row per combination).
         stress_max, stress_min: (states, stations) extreme-fibre stresses of the combination states,
-            kN/m2, tension positive (after any second-order amplification).
-        amplification: (states,) moment amplification applied to each combination state (1 = none).
+            kN/m2, tension positive (second-order where applied; patterned load not included).
+        amplification: (states,) ratio of the second-order to the first-order peak |M| of each state
+            (1 = first order).
+        second_order: (states,) how each state's moments were found: "first-order", "p-delta" or
+            "amplification".
+        pattern: the patterned live load's envelopes, or None.
+        patterned_groups: (group, factor) of the combinations the patterned load was added to.
+        thrust_lines: admissibility of every state (unreinforced ribs only).
+        collapse: collapse load factors of ``collapse_case`` per position (unreinforced ribs only).
     """
 
     rows: tuple[CheckRow, ...]
     stress_max: np.ndarray
     stress_min: np.ndarray
     amplification: np.ndarray
+    second_order: tuple[str, ...] = ()
+    pattern: PatternEnvelope | None = None
+    patterned_groups: tuple[tuple[str, float], ...] = ()
+    thrust_lines: tuple[ThrustLineRow, ...] = ()
+    collapse: tuple = ()
 
     @property
     def passed(self) -> bool:
@@ -75,15 +164,85 @@ class CheckResult:
         return max(rated, key=lambda r: r.utilisation) if rated else None
 
 
-def _amplification(case: Case, analysis: CaseAnalysis, response: Response) -> tuple[np.ndarray, dict[str, float]]:
-    """Per state: 1 / (1 - 1/alpha) where the group's buckling factor alpha is below the threshold."""
+def _second_order(case: Case, analysis: CaseAnalysis, response: Response):
+    """Second-order M and N per state where the group's buckling factor is below the threshold.
+
+    Returns (M, N, N_left, method per state, amplification per state, buckling factor per group).
+    """
+    settings = case.check
     alpha = {b.group: b.critical_factor for b in analysis.buckling}
-    factors = np.ones(response.count)
-    for k, group in enumerate(response.groups):
-        a = alpha.get(group, np.inf)
-        if a < case.check.second_order_below:
-            factors[k] = 1.0 / (1.0 - 1.0 / a) if a > 1.0 else np.inf
-    return factors, alpha
+    M, N, N_left = response.M.copy(), response.N.copy(), response.N_left.copy()
+    method = ["first-order"] * response.count
+    ratio = np.ones(response.count)
+    low = [k for k, g in enumerate(response.groups) if alpha.get(g, np.inf) < settings.second_order_below]
+    if not low:
+        return M, N, N_left, tuple(method), ratio, alpha
+    beyond = [k for k in low if alpha[response.groups[k]] <= 1.0]
+    usable = [k for k in low if k not in beyond]
+    for k in beyond:  # at or above the buckling load: no equilibrium, infinite moments
+        M[k] = np.where(M[k] == 0, 0.0, np.inf * np.sign(M[k]))
+        ratio[k] = np.inf
+        method[k] = "beyond buckling"
+    solved: list[int] = []
+    if usable and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None:
+        from formfind.analysis.second_order import second_order
+
+        # a moving train gives a combination many states: the P-Delta solve (one factorisation per
+        # state and iteration) goes to the P_DELTA_STATES of largest first-order moment in each group
+        for group in dict.fromkeys(response.groups[k] for k in usable):
+            mine = [k for k in usable if response.groups[k] == group]
+            peaks = np.abs(response.M[mine]).max(axis=1)
+            solved += [mine[j] for j in np.argsort(-peaks, kind="stable")[:P_DELTA_STATES]]
+        solved.sort()
+        loads = analysis.loads.combinations if analysis.combinations.count else analysis.loads.cases
+        result = second_order(analysis.frame, loads.select(solved)).response
+        for j, k in enumerate(solved):
+            peak1 = float(np.abs(M[k]).max())
+            M[k], N[k], N_left[k] = result.M[j], result.N[j], result.N_left[j]
+            ratio[k] = float(np.abs(M[k]).max()) / peak1 if peak1 > 0 else 1.0
+            method[k] = "p-delta"
+    for k in usable:
+        if k in solved:
+            continue
+        a = alpha[response.groups[k]]
+        ratio[k] = 1.0 / (1.0 - 1.0 / a)
+        M[k] = M[k] * ratio[k]
+        method[k] = "amplification"
+    return M, N, N_left, tuple(method), ratio, alpha
+
+
+def pattern_envelope(case: Case, analysis: CaseAnalysis, load_kN_m: float) -> PatternEnvelope:
+    """Envelopes of N, V, M, the thrust and the reactions under a patterned uniform load."""
+    lines = unit_influence(case, analysis)
+    x = analysis.axis.x
+    w = load_kN_m * tributary(x)[:, None]
+    n_mid = 0.5 * (lines.N + lines.N_left)  # a distributed load makes no jump at the station
+    v_mid = 0.5 * (lines.V + lines.V_left)
+    contributions = np.stack([n_mid * w, v_mid * w, lines.M * w])
+    thrust = lines.thrust * w[:, 0]
+    reac = lines.reactions * w[:, :, None]
+    return PatternEnvelope(
+        load_kN_m, x, contributions,
+        np.clip(contributions, 0.0, None).sum(axis=1), np.clip(contributions, None, 0.0).sum(axis=1),
+        float(np.clip(thrust, 0.0, None).sum()), float(np.clip(thrust, None, 0.0).sum()),
+        np.clip(reac, 0.0, None).sum(axis=0), np.clip(reac, None, 0.0).sum(axis=0),
+    )
+
+
+def unit_influence(case: Case, analysis: CaseAnalysis) -> Response:
+    """Influence lines of every effect for a unit downward load at each station (state j: load at j)."""
+    if analysis.frame is not None and case.supports.kind is not SupportKind.THREE_HINGED:
+        return influence_lines(analysis.frame)
+    axis = analysis.axis
+    return statics.three_hinged(axis, unit_loads(axis), case.hinge_station(axis))
+
+
+def tributary(x: np.ndarray) -> np.ndarray:
+    """Tributary length (m) of each station along x."""
+    trib = np.zeros(x.size)
+    trib[:-1] += 0.5 * np.diff(x)
+    trib[1:] += 0.5 * np.diff(x)
+    return trib
 
 
 def _where(response: Response, values: np.ndarray, x: np.ndarray) -> tuple[str, str, int, float]:
@@ -97,54 +256,222 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     response = analysis.combinations if analysis.combinations.count else analysis.cases
     sec = analysis.section
     x = analysis.axis.x
-    factors, alpha = _amplification(case, analysis, response)
-    M = response.M * factors[:, None]
-    N = np.minimum(response.N, response.N_left) if response.count else response.N  # the more compressive side
+    M, N_right, N_left, method, ratio, alpha = _second_order(case, analysis, response)
+    N = np.minimum(N_right, N_left) if response.count else N_right  # the more compressive side
     A, W = sec.area_m2[None, :], sec.section_modulus_m3[None, :]
-    fibre_a = N / A + M / W  # intrados (M > 0 puts it in tension; tension positive)
-    fibre_b = N / A - M / W  # extrados
+    with np.errstate(invalid="ignore"):
+        fibre_a = N / A + M / W  # intrados (M > 0 puts it in tension; tension positive)
+        fibre_b = N / A - M / W  # extrados
     s_max = np.maximum(fibre_a, fibre_b)
     s_min = np.minimum(fibre_a, fibre_b)
+    pattern = None
+    added: dict[str, float] = dict(settings.patterned_factors)
+    if settings.patterned_load_kN_m is not None:
+        pattern = pattern_envelope(case, analysis, settings.patterned_load_kN_m)
     rows: list[CheckRow] = []
-    amplified = bool(np.any(factors > 1.0))
-    note = f"moments amplified by 1/(1 - 1/alpha) where alpha < {settings.second_order_below:g}" if amplified else ""
+    used = sorted(set(method) - {"first-order"})
+    note = ""
+    if used:
+        note = f"second-order moments by {' and '.join(used)} where alpha < {settings.second_order_below:g}"
+    if pattern is not None:
+        rows += _pattern_rows(pattern, settings.patterned_load_kN_m)
     to_mpa = 1e-3
+    terms = _pattern_terms(pattern, added, response, ratio, alpha)
+    low, high = _stress_sets(response, fibre_a, fibre_b, pattern, terms, sec)
     if settings.compression_limit_kN_m2 is not None:
         limit = settings.compression_limit_kN_m2
-        group, state, i, xi = _where(response, -s_min, x)
-        value = float(-s_min.min())
+        value, group, state, i = _worst(-low, response)
         rows.append(CheckRow("compressive stress", value * to_mpa, limit * to_mpa, "MPa", value / limit, group,
-                             state, i, xi, PASS if value <= limit else FAIL, note))
+                             state, i, float(x[i]), PASS if value <= limit else FAIL, note))
     if settings.tension_limit_kN_m2 is not None:
         limit = settings.tension_limit_kN_m2
-        group, state, i, xi = _where(response, s_max, x)
-        value = float(max(s_max.max(), 0.0))
+        value, group, state, i = _worst(high, response)
+        value = max(value, 0.0)
         util = value / limit if limit > 0 else (0.0 if value <= 0 else np.inf)
-        rows.append(CheckRow("tensile stress", value * to_mpa, limit * to_mpa, "MPa", util, group, state, i, xi,
-                             PASS if value <= limit else FAIL, note))
+        rows.append(CheckRow("tensile stress", value * to_mpa, limit * to_mpa, "MPa", util, group, state, i,
+                             float(x[i]), PASS if value <= limit else FAIL, note))
     if settings.eccentricity_limit is not EccentricityLimit.NONE:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            e = np.where(N < 0, np.abs(M / N), np.inf)  # no compression: the thrust cannot be placed
-        bound = sec.kern_m if settings.eccentricity_limit is EccentricityLimit.KERN else 0.5 * sec.depth_m
-        ratio = e / bound[None, :]
-        group, state, i, xi = _where(response, ratio, x)
-        worst = float(ratio.max())
-        k = response.names.index(state)
-        rows.append(CheckRow(f"eccentricity within the {settings.eccentricity_limit.value}", float(e[k, i]),
-                             float(bound[i]), "m", worst, group, state, i, xi, PASS if worst <= 1.0 else FAIL, note))
+        rows.append(_eccentricity_row(settings.eccentricity_limit, response, M, N, sec, pattern, terms, x, note))
     for group, a in alpha.items():
         util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else 0.0
-        so = " (second-order amplification applied)" if a < settings.second_order_below else ""
+        so = f"second-order by {_group_method(response, method, group)}" if a < settings.second_order_below else ""
         rows.append(CheckRow("in-plane buckling factor", float(a) if np.isfinite(a) else float("inf"),
                              settings.min_buckling_factor, "-", util, group, group, None, None,
-                             PASS if a >= settings.min_buckling_factor else FAIL, so.strip()))
+                             PASS if a >= settings.min_buckling_factor else FAIL, so))
     for group in dict.fromkeys(response.groups):
         idx = [k for k, g in enumerate(response.groups) if g == group]
         thrust = response.thrust[idx]
         k = idx[int(np.argmax(np.abs(thrust)))]
-        rows.append(CheckRow("thrust on the abutments", float(response.thrust[k]), None, "kN", None, group,
-                             response.names[k], None, None, INFO))
-    return CheckResult(tuple(rows), s_max, s_min, factors)
+        value = float(response.thrust[k])
+        text = ""
+        if pattern is not None and group in added:
+            f = added[group]
+            extra = f * (pattern.thrust_max_kN if value >= 0 else pattern.thrust_min_kN)
+            value += extra
+            text = f"with {f:g} x the patterned load ({extra:.4g} kN)"
+        rows.append(CheckRow("thrust on the abutments", value, None, "kN", None, group,
+                             response.names[k], None, None, INFO, text))
+    thrust_rows: tuple[ThrustLineRow, ...] = ()
+    collapse: tuple = ()
+    if settings.unreinforced:
+        thrust_rows, collapse, extra_rows = _unreinforced(case, analysis)
+        rows += extra_rows
+    return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse)
+
+
+def _group_method(response: Response, method: tuple[str, ...], group: str) -> str:
+    return ", ".join(sorted({method[k] for k, g in enumerate(response.groups) if g == group}))
+
+
+def _pattern_rows(pattern: PatternEnvelope, load: float) -> list[CheckRow]:
+    """Info rows: the largest patterned-load effects on their own, with their loaded lengths."""
+    rows = []
+    for e, effect in enumerate(EFFECTS):
+        for largest, arr in ((True, pattern.maximum[e]), (False, pattern.minimum[e])):
+            i = int(np.argmax(arr) if largest else np.argmin(arr))
+            unit = "kNm" if effect == "M" else "kN"
+            lengths = _lengths_text(pattern.loaded_lengths(effect, i, largest))
+            rows.append(CheckRow(f"patterned load: {'largest' if largest else 'least'} {effect}", float(arr[i]), None,
+                                 unit, None, PATTERN, f"{load:g} kN/m on {lengths}", i, float(pattern.x[i]), INFO))
+    return rows
+
+
+def _pattern_amplification(response: Response, ratio: np.ndarray, alpha: dict[str, float], k: int) -> float:
+    """Second-order factor on the patterned load's moments in state k's group: 1 / (1 - 1/alpha)."""
+    if ratio[k] == 1.0:
+        return 1.0
+    a = alpha.get(response.groups[k], np.inf)
+    return 1.0 / (1.0 - 1.0 / a) if a > 1.0 else 1.0
+
+
+def _pattern_terms(pattern, added, response, ratio, alpha):
+    """Per state: (factor f, moment amplification) of the patterned load added, or None."""
+    if pattern is None or not added:
+        return [None] * response.count
+    return [None if response.groups[k] not in added else
+            (added[response.groups[k]], _pattern_amplification(response, ratio, alpha, k))
+            for k in range(response.count)]
+
+
+def _stress_sets(response, fibre_a, fibre_b, pattern, terms, sec):
+    """Lowest and highest fibre stress (states, stations), the patterned load's envelope added where asked.
+
+    The pattern's stresses come from the fibres' own influence lines: sigma_a = N/A + M/W and
+    sigma_b = N/A - M/W per unit load at each station, lumped by tributary length; one envelope per
+    distinct (factor, amplification).
+    """
+    lo = np.minimum(fibre_a, fibre_b)
+    hi = np.maximum(fibre_a, fibre_b)
+    if pattern is None:
+        return lo, hi
+    A, W = sec.area_m2, sec.section_modulus_m3
+    n_c, m_c = pattern.contributions[0], pattern.contributions[2]
+    for key in {t for t in terms if t is not None}:
+        f, amp = key
+        ca = f * (n_c / A + amp * m_c / W)  # (load stations, stations)
+        cb = f * (n_c / A - amp * m_c / W)
+        rows = [k for k, t in enumerate(terms) if t == key]
+        a_lo, a_hi = np.clip(ca, None, 0).sum(0), np.clip(ca, 0, None).sum(0)
+        b_lo, b_hi = np.clip(cb, None, 0).sum(0), np.clip(cb, 0, None).sum(0)
+        lo[rows] = np.minimum(fibre_a[rows] + a_lo, fibre_b[rows] + b_lo)
+        hi[rows] = np.maximum(fibre_a[rows] + a_hi, fibre_b[rows] + b_hi)
+    return lo, hi
+
+
+def _worst(values: np.ndarray, response: Response) -> tuple[float, str, str, int]:
+    k, i = np.unravel_index(int(np.nanargmax(values)), values.shape)
+    return float(values[k, i]), response.groups[k], response.names[k], int(i)
+
+
+def _eccentricity_row(limit_kind, response, M, N, sec, pattern, terms, x, note) -> CheckRow:
+    bound = sec.kern_m if limit_kind is EccentricityLimit.KERN else 0.5 * sec.depth_m
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio_e = np.where(N < 0, np.abs(M / N), np.inf) / bound[None, :]  # no compression: cannot be placed
+    masks: dict = {}
+    chosen = np.full(ratio_e.shape, -1)  # which sign's pattern governs, per state and station
+    if pattern is not None:
+        for key in {t for t in terms if t is not None}:
+            # the pattern maximising the margin |M| + N b (linear in the loads) governs; its e/b is reported
+            f, amp = key
+            rows = [k for k, t in enumerate(terms) if t == key]
+            n_c, m_c = f * pattern.contributions[0], f * amp * pattern.contributions[2]
+            best = np.full((len(rows), x.size), -np.inf)
+            for s, sign in enumerate((1.0, -1.0)):
+                mask = (sign * m_c + n_c * bound[None, :]) > 0
+                masks[key, s] = mask
+                m_tot = M[rows] + (m_c * mask).sum(0)
+                n_tot = N[rows] + (n_c * mask).sum(0)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    r = np.where(n_tot < 0, np.abs(m_tot / n_tot), np.inf) / bound
+                chosen[rows] = np.where(r > best, s, chosen[rows])
+                best = np.maximum(best, r)
+            ratio_e[rows] = best
+    k, i = np.unravel_index(int(np.nanargmax(ratio_e)), ratio_e.shape)
+    worst = float(ratio_e[k, i])
+    state = response.names[k]
+    if chosen[k, i] >= 0:
+        f = terms[k][0]
+        lengths = _lengths_text(loaded_lengths(x, masks[terms[k], int(chosen[k, i])][:, i]))
+        state += f" + {f:g} x patterned load on {lengths}"
+    name = f"eccentricity within the {limit_kind.value}"
+    return CheckRow(name, worst * float(bound[i]), float(bound[i]), "m", worst, response.groups[k], state, int(i),
+                    float(x[i]), PASS if worst <= 1.0 else FAIL, note)
+
+
+def _unreinforced(case: Case, analysis: CaseAnalysis):
+    """Thrust-line rows of a no-tension rib: admissibility per combination, collapse of collapse_case."""
+    from formfind.design.thrust import admissibility, collapse_factors
+
+    settings = case.check
+    axis = analysis.axis
+    depth = analysis.section.depth_m
+    kind = case.supports.kind
+    hinge = case.hinge_station(axis) if kind is SupportKind.THREE_HINGED else None
+    use_combos = analysis.combinations.count > 0
+    loads = analysis.loads.combinations if use_combos else analysis.loads.cases
+    response = analysis.combinations if use_combos else analysis.cases
+    with np.errstate(divide="ignore", invalid="ignore"):
+        guess = np.nan_to_num(np.abs(response.M) / np.maximum(-response.N, 0.0) / (0.5 * depth), nan=np.inf).max(axis=1)
+    results = admissibility(axis, loads, depth, settings.min_geometric_factor, kind, hinge, np.argsort(-guess))
+    table = tuple(ThrustLineRow(g, r.state, r.admissible, r.geometric_factor)
+                  for g, r in zip(loads.groups, results, strict=True))
+    rows = []
+    for group in dict.fromkeys(loads.groups):
+        mine = [r for r in table if r.group == group]
+        failing = [r for r in mine if not r.admissible]
+        rated = [r for r in mine if not np.isnan(r.geometric_factor)] or mine
+        governing = min(rated, key=lambda r: r.geometric_factor)
+        value = governing.geometric_factor
+        need = settings.min_geometric_factor
+        util = need / value if value > 0 else np.inf
+        rows.append(CheckRow("thrust line: geometric factor", value, need, "-", util, group,
+                             (failing[0] if failing else governing).state, None, None,
+                             FAIL if failing else PASS,
+                             f"{len(failing)} of {len(mine)} states have no line of thrust within depth/{need:g}"
+                             if failing else f"all {len(mine)} states hold a line of thrust within depth/{need:g}"))
+    collapse: tuple = ()
+    if settings.collapse_case:
+        permanent = [i for i, c in enumerate(case.cases) if c.action is ActionKind.PERMANENT]
+        dead = _sum_states(analysis.loads.cases, [case.cases[i].name for i in permanent])
+        live = analysis.loads.cases.select(analysis.loads.cases.group_states(settings.collapse_case))
+        collapse = collapse_factors(axis, dead, live, depth, kind, hinge)
+        worst = min(collapse, key=lambda c: c.factor)
+        need = settings.min_collapse_factor
+        hinges = "; ".join(f"{h.x_m:.2f} m ({h.face})" for h in worst.hinges)
+        rows.append(CheckRow("thrust line: collapse factor", worst.factor, need, "-",
+                             need / worst.factor if worst.factor > 0 else np.inf, settings.collapse_case, worst.state,
+                             None, None, PASS if worst.factor >= need else FAIL,
+                             f"on the unfactored permanent cases; hinges at {hinges}" if hinges else
+                             "on the unfactored permanent cases"))
+    return table, collapse, rows
+
+
+def _sum_states(loads: StationLoads, groups: list[str]) -> StationLoads:
+    """One state: the sum of the (single-state) groups named, each with factor 1."""
+    spans = [loads.group_states(g)[0] for g in groups]
+    if not spans:
+        return StationLoads.from_densities(np.zeros((1,) + loads.dist.shape[1:]), "permanent")
+    return loads.combine("permanent", [(s, 1.0) for s in spans])
 
 
 def patterned_envelope(influence: np.ndarray, x: np.ndarray, load_kN_m: float) -> tuple[np.ndarray, np.ndarray]:

@@ -29,6 +29,7 @@ from formfind.enums import (
     LoadDirection,
     Objective,
     Projection,
+    SecondOrderMethod,
     SectionVariation,
     ShapeKind,
     Solver,
@@ -135,7 +136,13 @@ class CheckSettings:
     eccentricity_limit: EccentricityLimit = EccentricityLimit.NONE
     min_buckling_factor: float = 1.0
     second_order_below: float = 10.0
+    second_order: SecondOrderMethod = SecondOrderMethod.P_DELTA
     patterned_load_kN_m: float | None = None
+    patterned_factors: tuple[tuple[str, float], ...] = ()
+    unreinforced: bool = False
+    min_geometric_factor: float = 1.0
+    collapse_case: str = ""
+    min_collapse_factor: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -324,7 +331,13 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
             eccentricity_limit=check_raw["eccentricity_limit"],
             min_buckling_factor=check_raw["min_buckling_factor"],
             second_order_below=check_raw["second_order_below"],
+            second_order=check_raw["second_order"],
             patterned_load_kN_m=check_raw["patterned_load_kN_m"],
+            patterned_factors=_patterned_factors(check_raw, cases, combinations, file),
+            unreinforced=check_raw["unreinforced"],
+            min_geometric_factor=check_raw["min_geometric_factor"],
+            collapse_case=_collapse_case(check_raw, cases, file),
+            min_collapse_factor=check_raw["min_collapse_factor"],
         ),
         source=file,
         defaults_used=tuple(defaults),
@@ -515,6 +528,35 @@ def _combinations(raw: Any, cases: tuple[LoadCase, ...], file: str) -> tuple[Com
             raise CaseError(file, f"{path}.factors", "at most one moving-load (axle_train) case per combination")
         out.append(Combination(v["name"], v["factors"], v["description"]))
     return tuple(out)
+
+
+def _patterned_factors(check: dict[str, Any], cases: tuple[LoadCase, ...], combinations: tuple[Combination, ...],
+                       file: str) -> tuple[tuple[str, float], ...]:
+    factors = check["patterned_factors"] or ()
+    groups = [c.name for c in combinations] if combinations else [c.name for c in cases]
+    for name, _ in factors:
+        if name not in groups:
+            raise CaseError(file, f"check.patterned_factors.{name}", f"unknown combination{schema.suggest(name, groups)}; "
+                            f"expected one of {', '.join(groups)}")
+    if factors and check["patterned_load_kN_m"] is None:
+        raise CaseError(file, "check.patterned_factors", "needs check.patterned_load_kN_m (the load's intensity)")
+    return tuple(factors)
+
+
+def _collapse_case(check: dict[str, Any], cases: tuple[LoadCase, ...], file: str) -> str:
+    name = check["collapse_case"]
+    if not name:
+        return ""
+    names = [c.name for c in cases]
+    if name not in names:
+        raise CaseError(file, "check.collapse_case", f"unknown load case {name!r}{schema.suggest(name, names)}; "
+                        f"expected one of {', '.join(names)}")
+    chosen = next(c for c in cases if c.name == name)
+    if chosen.action is ActionKind.PERMANENT:
+        raise CaseError(file, "check.collapse_case", f"{name!r} is permanent; expected a variable load case to raise")
+    if not check["unreinforced"]:
+        raise CaseError(file, "check.collapse_case", "applies to unreinforced ribs; set check.unreinforced = true")
+    return name
 
 
 def _polyline(xs: Any, ys: Any, span: float, file: str, key: str) -> tuple[tuple[float, float], ...]:

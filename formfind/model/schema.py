@@ -23,6 +23,7 @@ from formfind.enums import (
     LoadDirection,
     Objective,
     Projection,
+    SecondOrderMethod,
     SectionVariation,
     ShapeKind,
     Solver,
@@ -290,8 +291,25 @@ CHECK = Table(
             default=1.0, positive=True),
         Key("second_order_below", "number", "Buckling factors below this amplify moments by "
             "1 / (1 - 1/alpha) (10 for elastic analysis is common practice).", default=10.0, positive=True),
-        Key("patterned_load_kN_m", "number", "Intensity of a patterned live load (per horizontal metre) "
-            "placed where the influence lines are adverse.", "kN/m", default=None, positive=True),
+        Key("second_order", SecondOrderMethod, "How second-order moments are found where a buckling factor "
+            "is below second_order_below: a P-Delta solve on the deflected arch, or the amplification "
+            "1 / (1 - 1/alpha).", default=SecondOrderMethod.P_DELTA.value),
+        Key("patterned_load_kN_m", "number", "Intensity of a patterned live load (per horizontal metre, "
+            "downwards) placed, station by station and effect by effect, wherever the influence line is "
+            "adverse.", "kN/m", default=None, positive=True),
+        Key("patterned_factors", "factors", "Inline table: combination (or case) name = factor on the "
+            "patterned load added to it, e.g. { ULS = 1.5 }. The patterned load is always also reported "
+            "on its own.", default=None),
+        Key("unreinforced", "boolean", "The rib takes no tension (masonry, plain concrete): check that a "
+            "line of thrust lies within the ring for every state (Heyman's safe theorem).", default=False),
+        Key("min_geometric_factor", "number", "Least geometric factor of safety of an unreinforced rib: "
+            "ring depth over the depth of the thinnest zone that still holds a line of thrust.",
+            default=1.0, positive=True),
+        Key("collapse_case", "string", "A variable load case (point or line loads, or an axle train) to "
+            "raise until the unreinforced rib collapses, on top of the unfactored permanent cases.",
+            default=""),
+        Key("min_collapse_factor", "number", "Least collapse load factor on collapse_case.", default=1.0,
+            positive=True),
     ),
 )
 

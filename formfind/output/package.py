@@ -105,6 +105,10 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
     if checks is not None:
         out["checks.csv"] = tables.checks_csv(checks).encode()
         out["checks.json"] = tables.checks_json(checks, case.name).encode()
+        if checks.pattern is not None:
+            out["patterned.csv"] = tables.patterned_csv(checks).encode()
+        if checks.thrust_lines:
+            out["thrust-lines.csv"] = tables.thrust_lines_csv(checks).encode()
     if shape is not None:
         section = case.section.at(shape.axis)
         out["shape.json"] = tables.shape_json(shape, case.name).encode()

@@ -333,3 +333,26 @@ def checks_json(result: CheckResult, case_name: str) -> str:
         "formfind_version": __version__, "case": case_name, "caution": CAUTION, "passed": result.passed,
         "rows": [dict(zip(CHECK_HEADER, [clean(v) for v in _check_cells(r)], strict=True)) for r in result.rows],
     }, indent=2)
+
+
+def patterned_csv(result: CheckResult) -> str:
+    """The patterned live load's envelopes at every station (alone, factor 1) with the loaded lengths
+    of the pattern that gives the largest and least M there."""
+    p = result.pattern
+    header = ["station", "x_m", "N_max_kN", "N_min_kN", "V_max_kN", "V_min_kN", "M_max_kNm", "M_min_kNm",
+              "M_max_loaded_m", "M_min_loaded_m"]
+    rows = []
+    for i, x in enumerate(p.x):
+        spans = [" ".join(f"{a:.3f}-{b:.3f}" for a, b in p.loaded_lengths("M", i, largest)) for largest in (True, False)]
+        rows.append([i, float(x), *(float(p.maximum[e, i]) if k == 0 else float(p.minimum[e, i])
+                                    for e in range(3) for k in range(2)), *spans])
+    return _csv(header, rows)
+
+
+def thrust_lines_csv(result: CheckResult) -> str:
+    """Unreinforced ribs: admissibility per state and the collapse factor per position of the live load."""
+    rows = [["admissibility", t.group, t.state, int(t.admissible), t.geometric_factor, ""] for t in result.thrust_lines]
+    rows += [["collapse", "", c.state, "", c.factor, " ".join(f"{h.x_m:.3f}:{h.face}" for h in c.hinges)]
+             for c in result.collapse]
+    return _csv(["kind", "combination", "state", "admissible", "factor", "hinges_x_m_face"],
+                [["" if isinstance(v, float) and math.isnan(v) else v for v in r] for r in rows])
