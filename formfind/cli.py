@@ -65,6 +65,9 @@ def _parser() -> argparse.ArgumentParser:
         p.add_argument("--all-states", action="store_true",
                        help="also write states.csv: N, V, M of every state (every train position)")
         p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+        if name in ("run", "check"):
+            p.add_argument("--json", action="store_true",
+                           help="print the verdict table as JSON on standard output instead of the summary")
 
     sub.add_parser("keys", help="print the case-file key reference (Markdown)")
     return parser
@@ -170,7 +173,12 @@ def _job(args: argparse.Namespace) -> int:
     contents = build_files(case, shape, result, all_states=getattr(args, "all_states", False), checks=checks,
                            drawings=args.command == "run")
     written = write_package(folder, contents, args.overwrite)
-    if not args.quiet:
+    if getattr(args, "json", False) and checks is not None:
+        from formfind.output.tables import checks_json
+
+        sys.stdout.write(checks_json(checks, case.name))
+        sys.stdout.write("\n")
+    elif not args.quiet:
         if shape is not None:
             _print_shape(shape)
         if result is not None:

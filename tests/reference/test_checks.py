@@ -175,3 +175,53 @@ def test_patterned_load_in_a_combination_equals_brute_force_over_every_pattern()
     best = next(r for r in checked.rows if r.name == "patterned load: largest M")
     assert best.value == pytest.approx((patterns.M / 1.5).max(), rel=1e-9)
     assert "kN/m on" in best.state
+
+
+def test_moving_train_envelope_equals_brute_force_over_positions_both_ways():
+    """The train's envelope (one state per position, both directions, at the stated step) equals the
+    worst of separate analyses of every position enumerated here by hand (common practice, no source)."""
+    from formfind.analysis.frame import build_frame, solve
+    from formfind.analysis.response import envelope
+    from formfind.enums import SupportKind
+    from formfind.model.geometry import Axis, Chord, Parabola, place_stations
+    from formfind.model.loads import AxleTrain, LoadCase, PointLoad, case_station_loads
+    from formfind.model.section import Section
+
+    span, step = 24.0, 0.5
+    offsets, axles = (0.0, 2.0, 3.5), (60.0, 60.0, 40.0)
+    curve = Parabola(Chord(span), 5.0)
+    axis = Axis.from_curve(curve, place_stations(curve, 49))
+    section = Section(0.05, 2e-3, 0.6, 2.1e8).at(axis)
+    model = build_frame(axis, section, SupportKind.TWO_HINGED)
+    train = case_station_loads(LoadCase("t", (AxleTrain(offsets, axles, step),)), axis, section)
+    env = envelope(solve(model, train, displacements=False), "t")
+    hi = np.full((3, axis.count), -np.inf)
+    lo = np.full((3, axis.count), np.inf)
+    count = 0
+    for direction in (1, -1):
+        lead = 0.0
+        while lead <= span + offsets[-1] + 1e-9:
+            on = [(lead - o, p) for o, p in zip(offsets, axles, strict=True) if 0.0 <= lead - o <= span]
+            loads = tuple(PointLoad(t if direction == 1 else span - t, p) for t, p in on)
+            r = solve(model, case_station_loads(LoadCase("p", loads), axis, section), displacements=False)
+            for e, (a, b) in enumerate(((r.N, r.N_left), (r.V, r.V_left), (r.M, r.M))):
+                hi[e] = np.maximum(hi[e], np.maximum(a[0], b[0]))
+                lo[e] = np.minimum(lo[e], np.minimum(a[0], b[0]))
+            lead += step
+            count += 1
+    assert len(env.states) == count
+    # the same arithmetic in another order: round-off only
+    np.testing.assert_allclose(env.maximum, hi, rtol=1e-9, atol=1e-9 * np.abs(hi).max())
+    np.testing.assert_allclose(env.minimum, lo, rtol=1e-9, atol=1e-9 * np.abs(lo).max())
+
+
+def test_check_json_flag_prints_the_verdict_table_machine_readably(write_case, tmp_path, capsys):
+    import json
+
+    extra = '\n[check]\ntension_limit_MPa = 0.0\neccentricity_limit = "kern"\n'
+    path = write_case(BASE_CASE.replace('rise_m = 4.0', 'rise_m = 4.0\nshape = "circle"') + extra)
+    code = run_cli(["check", str(path), "--out", str(tmp_path), "--json"])
+    data = json.loads(capsys.readouterr().out)
+    assert code == EXIT_CHECK_FAILED and data["passed"] is False
+    saved = json.loads((tmp_path / "small" / "checks.json").read_text())
+    assert data == saved
