@@ -68,7 +68,9 @@ def test_default_case_runs_and_writes_results(tmp_path):
     assert proc.returncode == 0, proc.stderr
     folder = tmp_path / "footbridge"
     names = {p.name for p in _files_under(folder)}
-    assert {"analysis.json", "forces.csv", "reactions.csv", "summary.csv"} <= names
+    assert {"analysis.json", "forces.csv", "reactions.csv", "summary.csv", "checks.csv", "shape.json", "axis.dxf",
+            "setting-out.csv", "fig-axis.png", "fig-envelope-M.svg", "report.html", "report.pdf",
+            "manifest.json"} <= names
     assert not [n for n in names if n.endswith(".part")]
     data = json.loads((folder / "analysis.json").read_text())
     assert data["case"] == "footbridge" and "caution" in data

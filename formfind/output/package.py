@@ -8,6 +8,7 @@ it reads `ShapeResult` and `CaseAnalysis` (thrust lines come from `formfind.anal
 
 from __future__ import annotations
 
+import datetime
 import hashlib
 import io
 from pathlib import Path
@@ -20,7 +21,7 @@ from formfind.analysis.response import envelopes, thrust_line
 from formfind.design.shape import ShapeResult, governing_groups
 from formfind.enums import SupportKind
 from formfind.model.case import Case
-from formfind.output import files, plots, tables
+from formfind.output import files, plots, report, tables
 from formfind.output.dxf import DrawingContent, build_drawing
 
 MAX_THRUST_LINES = 4
@@ -68,32 +69,36 @@ def drawing_bytes(case: Case, analysis: CaseAnalysis) -> bytes:
     return stream.getvalue().encode("utf-8")
 
 
-def figure_files(case: Case, analysis: CaseAnalysis) -> dict[str, bytes]:
-    """The diagrams as PNG and SVG bytes, by file name."""
+def figure_axes(case: Case, analysis: CaseAnalysis) -> dict[str, object]:
+    """The diagrams as matplotlib Axes, by file stem."""
     axis = analysis.axis
     response = analysis.combinations if analysis.combinations.count else analysis.cases
-    out: dict[str, bytes] = {}
-
-    def add(stem: str, ax) -> None:
-        for fmt, data in _figure_bytes(ax).items():
-            out[f"{stem}.{fmt}"] = data
-
-    add("fig-axis", plots.plot_axis(axis, analysis.section.depth_m, _thrust_lines(case, analysis),
-                                   case.find.clearance, case.find.envelope))
+    out: dict[str, object] = {}
+    out["fig-axis"] = plots.plot_axis(axis, analysis.section.depth_m, _thrust_lines(case, analysis),
+                                      case.find.clearance, case.find.envelope)
     envs = envelopes(response)
     worst = max(envs, key=lambda e: float(np.abs(np.concatenate([e.maximum[2], e.minimum[2]])).max()))
     k = response.groups.index(worst.group)
-    add("fig-moment-along", plots.plot_along_arch(axis, response.M[k], "M", worst.group))
+    out["fig-moment-along"] = plots.plot_along_arch(axis, response.M[k], "M", worst.group)
     for e, effect in enumerate(("N", "V", "M")):
         ax = plots.new_axes()
         for env in envs[:6]:
             plots.plot_envelope(axis.x, env.maximum[e], env.minimum[e], effect, env.group, ax=ax)
-        add(f"fig-envelope-{effect}", ax)
+        out[f"fig-envelope-{effect}"] = ax
     if analysis.buckling:
         critical = min(analysis.buckling, key=lambda b: b.critical_factor)
         if critical.factors.size:
-            add("fig-buckling", plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
-                                                         critical.symmetry[0]))
+            out["fig-buckling"] = plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
+                                                           critical.symmetry[0])
+    return out
+
+
+def figure_files(case: Case, analysis: CaseAnalysis, axes: dict[str, object] | None = None) -> dict[str, bytes]:
+    """The diagrams as PNG and SVG bytes, by file name."""
+    out: dict[str, bytes] = {}
+    for stem, ax in (axes or figure_axes(case, analysis)).items():
+        for fmt, data in _figure_bytes(ax).items():
+            out[f"{stem}.{fmt}"] = data
     return out
 
 
@@ -128,7 +133,13 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
                                                             case.outputs.setting_out_interval_m).encode()
         if drawings:
             out["axis.dxf"] = drawing_bytes(case, analysis)
-            out.update(figure_files(case, analysis))
+            axes = figure_axes(case, analysis)
+            figures = figure_files(case, analysis, axes)
+            out.update(figures)
+            svgs = {name: data for name, data in figures.items() if name.endswith(".svg")}
+            today = datetime.date.today().isoformat()
+            out["report.html"] = report.report_html(case, shape, analysis, checks, svgs, today).encode("utf-8")
+            out["report.pdf"] = report.report_pdf(case, shape, analysis, checks, list(axes.values()), today)
     return out
 
 
