@@ -17,8 +17,8 @@ import pytest
 from formfind.analysis.engine import analyse
 from formfind.design.check import check
 from formfind.model.case import load_case
-from formfind.output.report import CAUTIONS, SECTIONS
 from formfind.output.package import build_files
+from formfind.output.report import CAUTIONS, SECTIONS
 from tests.conftest import BASE_CASE
 
 CHECKS = '\n[check]\ncompression_limit_MPa = 20.0\ntension_limit_MPa = 0.5\neccentricity_limit = "kern"\nmin_buckling_factor = 3.0\n'
