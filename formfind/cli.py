@@ -69,6 +69,23 @@ def _parser() -> argparse.ArgumentParser:
             p.add_argument("--json", action="store_true",
                            help="print the verdict table as JSON on standard output instead of the summary")
 
+    p = sub.add_parser("study", help="rise-span (and depth) trade study: find and check every point",
+                       description="Sweep rise/span, span and rib depth; each point finds its axis and checks it. "
+                       "Ranges are lists (0.1,0.15,0.2) or FROM:TO:COUNT (0.1:0.3:9); default: the [study] table.")
+    p.add_argument("case", type=Path, help="case file (TOML)")
+    p.add_argument("--rise-over-span", default=None, help="rise/span values (-)")
+    p.add_argument("--span", default=None, help="spans (m)")
+    p.add_argument("--depth", default=None, help="rib depths (m), for rectangular ribs")
+    run = p.add_mutually_exclusive_group()
+    run.add_argument("--workers", type=int, default=None, help="local worker processes (default: all cores)")
+    run.add_argument("--serial", action="store_true", help="run every point in this process")
+    run.add_argument("--scheduler", default=None,
+                     help="address of a dask.distributed scheduler (needs the dask extra)")
+    p.add_argument("--stations", type=int, default=None, help="override [stations] count")
+    p.add_argument("--out", type=Path, default=Path("outputs"), help="output folder (default: outputs)")
+    p.add_argument("--overwrite", action="store_true", help="replace earlier study outputs of this case")
+    p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+
     sub.add_parser("keys", help="print the case-file key reference (Markdown)")
     return parser
 
@@ -82,6 +99,8 @@ def run_cli(argv: list[str] | None = None) -> int:
             return _validate(args)
         if args.command in ("run", "analyse", "find", "check"):
             return _job(args)
+        if args.command == "study":
+            return _study(args)
         if args.command == "keys":
             from formfind.model.schema import reference_markdown
 
@@ -90,6 +109,9 @@ def run_cli(argv: list[str] | None = None) -> int:
     except FormfindError as exc:
         print(f"formfind: error: {exc}", file=sys.stderr)
         return exc.exit_code
+    except UsageError as exc:
+        print(f"formfind: usage error: {exc}", file=sys.stderr)
+        return 2
     except KeyboardInterrupt:
         print("formfind: interrupted", file=sys.stderr)
         return 130
@@ -189,6 +211,100 @@ def _job(args: argparse.Namespace) -> int:
         print(CAUTION_LINE)
     if checks is not None and not checks.passed:
         return EXIT_CHECK_FAILED
+    return EXIT_OK
+
+
+def _values(text: str | None, option: str) -> tuple[float, ...]:
+    """'a,b,c' or 'from:to:count' as numbers; a bad list is a usage error (exit 2)."""
+    if text is None:
+        return ()
+    import numpy as np
+
+    try:
+        if ":" in text:
+            lo, hi, count = text.split(":")
+            n = int(count)
+            if not 1 <= n <= 10_000:
+                raise ValueError
+            return tuple(float(v) for v in np.linspace(float(lo), float(hi), n))
+        return tuple(float(v) for v in text.split(",") if v.strip())
+    except ValueError:
+        raise UsageError(f"{option}: expected numbers a,b,c or FROM:TO:COUNT, got {text!r}") from None
+
+
+class UsageError(Exception):
+    """A command-line value that argparse cannot judge by itself (exit 2)."""
+
+
+def _progress(quiet: bool):
+    if quiet or not sys.stderr.isatty():
+        return None
+
+    def show(done: int, total: int) -> None:
+        width = 30
+        filled = int(width * done / total)
+        sys.stderr.write(f"\r[{'#' * filled}{' ' * (width - filled)}] {done}/{total} points")
+        if done == total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+    return show
+
+
+def _study(args: argparse.Namespace) -> int:
+    import contextlib
+    import multiprocessing
+
+    from formfind.design.study import points_of, run_study
+    from formfind.output import files
+    from formfind.output.study_files import write_study
+
+    case = _load(args)
+    points = points_of(case, _values(args.rise_over_span, "--rise-over-span"), _values(args.span, "--span"),
+                       _values(args.depth, "--depth"))
+    folder = Path(args.out) / files.safe_name(case.name)
+    from formfind.output.study_files import study_names
+
+    files.prepare_folder(folder, study_names(), args.overwrite)
+    with contextlib.ExitStack() as stack:
+        executor, window = None, None
+        if args.scheduler:
+            try:
+                from dask.distributed import Client
+            except ImportError:
+                raise UsageError("--scheduler needs dask.distributed: pip install 'formfind[dask]'") from None
+            client = stack.enter_context(Client(args.scheduler))
+            executor = client.get_executor()
+            window = 2 * max(1, sum(client.nthreads().values()))
+        elif not args.serial:
+            from concurrent.futures import ProcessPoolExecutor
+
+            workers = args.workers or os.cpu_count() or 1
+            if workers < 1:
+                raise UsageError(f"--workers: expected at least 1, got {workers}")
+            if workers > 1 and len(points) > 1:
+                # spawn: a forked child of a process holding solver threads can deadlock
+                executor = stack.enter_context(ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")))
+        rows = run_study(case, points, executor, _progress(args.quiet), window)
+        written, kept = write_study(folder, case, rows, args.overwrite)
+    if not args.quiet:
+        ok = [r for r in kept if r.status == "ok"]
+        passing = [r for r in ok if r.verdict == "pass"]
+        print(f"study of {case.name}: {len(kept)} points, {len(ok)} with an axis, {len(passing)} passing every check; "
+              f"{len(kept) - len(ok)} without an axis (see the reason column)")
+        print(f"{'span m':>7} {'rise/span':>9} {'depth m':>8} {'status':<10} {'H max kN':>10} {'peak M kNm':>11} "
+              f"{'buckling':>9} {'verdict':<7}")
+        for r in kept[:40]:
+            print(f"{r.span_m:>7.4g} {r.rise_over_span:>9.4g} {r.depth_m:>8.4g} {r.status:<10} {r.max_thrust_kN:>10.4g} "
+                  f"{r.peak_M_all_kNm:>11.4g} {r.buckling_factor:>9.3g} {r.verdict:<7}")
+        if len(kept) > 40:
+            print(f"... {len(kept) - 40} more rows in study.csv")
+        if kept:
+            find = sum(r.find_s for r in kept) / len(kept)
+            chk = sum(r.check_s for r in kept) / len(kept)
+            print(f"time per point: {find + chk:.2f} s ({find:.2f} s finding, {chk:.2f} s checking)")
+        print(f"wrote {len(written)} files to {folder}/ (manifest-study.json lists them with SHA-256)")
+        print(CAUTION_LINE)
     return EXIT_OK
 
 

@@ -156,6 +156,15 @@ class OutputSettings:
 
 
 @dataclass(frozen=True)
+class StudySettings:
+    """A trade study's ranges (see `formfind.model.schema.STUDY`); empty: the case's own value."""
+
+    rise_over_span: tuple[float, ...] = ()
+    span_m: tuple[float, ...] = ()
+    depth_m: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
 class FindSettings:
     """Form-finding settings (see `formfind.model.schema.FIND`). Lengths in m.
 
@@ -203,6 +212,7 @@ class Case:
     find: FindSettings = FindSettings()
     outputs: OutputSettings = OutputSettings()
     check: CheckSettings = CheckSettings()
+    study: StudySettings = StudySettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
 
@@ -306,6 +316,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     find_raw = section(schema.FIND, required=False)
     outputs_raw = section(schema.OUTPUTS, required=False)
     check_raw = section(schema.CHECK, required=False)
+    study_raw = section(schema.STUDY, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     _limits(cases, combinations, geometry, file)
@@ -339,6 +350,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
             collapse_case=_collapse_case(check_raw, cases, file),
             min_collapse_factor=check_raw["min_collapse_factor"],
         ),
+        study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),
         source=file,
         defaults_used=tuple(defaults),
     )

@@ -313,6 +313,20 @@ CHECK = Table(
     ),
 )
 
+STUDY = Table(
+    "study",
+    "A rise-span (and rib depth) trade study: every point finds its axis and checks it (formfind study). "
+    "Abscissae of loads, the hinge, clearance and site lines scale with the span; heights and axle "
+    "spacings do not.",
+    (
+        Key("rise_over_span", "numbers", "Rise/span ratios to study; default: the geometry's own.", default=None,
+            minimum=0.01, maximum=1.0),
+        Key("span_m", "numbers", "Spans to study; default: the geometry's own.", "m", default=None, positive=True),
+        Key("depth_m", "numbers", "Rib depths to study (rectangular ribs); default: the section's own.", "m",
+            default=None, positive=True),
+    ),
+)
+
 CASES = Table(
     "cases",
     "Load cases, one [[cases]] table each, holding a list of [[cases.loads]].",
@@ -421,7 +435,7 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, OUTPUTS,
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, STUDY, OUTPUTS,
                                  CASES, COMBINATIONS)
 
 

@@ -74,3 +74,43 @@ def prepare_folder(folder: Path, names: list[str], overwrite: bool) -> Path:
     except OSError as exc:
         raise OutputError(f"{folder}: cannot create the output folder ({exc.strerror})") from None
     return folder
+
+
+class StreamingFile:
+    """A text file written piece by piece to a temporary name and renamed into place on `commit`.
+
+    For outputs too long to build in memory (a study's table): ``write`` appends, ``commit``
+    flushes, syncs and renames; leaving the ``with`` block without committing (an error) deletes the
+    temporary file, so no partial file ever carries the final name.
+    """
+
+    def __init__(self, path: Path) -> None:
+        self.path = Path(path)
+        fd, self._tmp = tempfile.mkstemp(prefix=f".{self.path.name}.", suffix=".part", dir=self.path.parent)
+        self._fh = os.fdopen(fd, "w", encoding="utf-8", newline="")
+        self._done = False
+
+    def write(self, text: str) -> None:
+        """Append text."""
+        self._fh.write(text)
+
+    def commit(self) -> Path:
+        """Finish the file and give it its final name."""
+        self._fh.flush()
+        os.fsync(self._fh.fileno())
+        self._fh.close()
+        os.chmod(self._tmp, 0o666 & ~_umask())
+        os.replace(self._tmp, self.path)
+        self._done = True
+        return self.path
+
+    def __enter__(self) -> StreamingFile:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if not self._done:
+            self._fh.close()
+            try:
+                os.unlink(self._tmp)
+            except FileNotFoundError:
+                pass

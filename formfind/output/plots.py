@@ -144,3 +144,63 @@ def save_figure(ax, stem: Path) -> list[Path]:
         fig.savefig(buf, format=fmt, metadata={"Date": None} if fmt == "svg" else None)
         written.append(write_bytes(Path(f"{stem}.{fmt}"), buf.getvalue()))
     return written
+
+
+STUDY_QUANTITIES = {
+    "thrust": ("max_thrust_kN", "largest thrust H (kN)", "Thrust on the abutments"),
+    "moment": ("peak_M_all_kNm", "peak |M| over every combination (kNm)", "Peak bending moment"),
+    "buckling": ("buckling_factor", "least buckling factor (-)", "In-plane buckling factor"),
+    "material": ("volume_m3", "rib volume (m3)", "Material in the rib"),
+}
+
+
+def plot_study(rows, quantity: str, own_ratio: float | None = None, ax=None):
+    """A study quantity against rise/span, one line per (span, depth); the range where the checks pass
+    shaded; failed points marked on the axis; the case file's own rise/span marked."""
+    ax = ax or new_axes()
+    key, label, title = STUDY_QUANTITIES[quantity]
+    series: dict[tuple[float, float], list] = {}
+    for r in rows:
+        series.setdefault((r.span_m, r.depth_m), []).append(r)
+    shaded = marked = False
+    for (span, depth), pts in series.items():
+        pts = sorted(pts, key=lambda r: r.rise_over_span)
+        ratio = np.array([r.rise_over_span for r in pts])
+        value = np.array([getattr(r, key) if r.status == "ok" else np.nan for r in pts], dtype=float)
+        value[~np.isfinite(value)] = np.nan
+        line, = ax.plot(ratio, value, marker="o", ms=3, lw=1.2,
+                        label=f"span {span:g} m, depth {depth:g} m" if len(series) > 1 else f"span {span:g} m")
+        passing = ratio[[r.status == "ok" and r.verdict == "pass" for r in pts]]
+        if passing.size:
+            ax.axvspan(passing.min(), passing.max(), color=line.get_color(), alpha=0.08,
+                       label=None if shaded else "checks pass")
+            shaded = True
+        bad = [r.rise_over_span for r in pts if r.status != "ok"]
+        if bad:
+            ax.plot(bad, [0.0] * len(bad), "x", color=line.get_color(), transform=ax.get_xaxis_transform(),
+                    clip_on=False, label=None if marked else "no axis found (infeasible or failed)")
+            marked = True
+    if own_ratio is not None:
+        ax.axvline(own_ratio, color="k", ls="--", lw=0.8, label=f"case file: rise/span {own_ratio:.3g}")
+    ax.set_xlabel("rise / span (-)")
+    ax.set_ylabel(label)
+    ax.set_title(title)
+    ax.grid(True, lw=0.3)
+    ax.legend(fontsize=7)
+    return ax
+
+
+def plot_pareto(thrust_kN: np.ndarray, moment_kNm: np.ndarray, front: np.ndarray, ratios: np.ndarray, ax=None):
+    """Peak moment against thrust for every study point, the Pareto front joined (both minimised)."""
+    ax = ax or new_axes()
+    sc = ax.scatter(thrust_kN, moment_kNm, c=ratios, cmap="viridis", s=14, label="study points")
+    ax.figure.colorbar(sc, ax=ax, label="rise / span (-)")
+    if front.size:
+        ax.plot(thrust_kN[front], moment_kNm[front], color="tab:red", lw=1.2, drawstyle="steps-post",
+                label="Pareto front")
+    ax.set_xlabel("largest thrust H (kN)")
+    ax.set_ylabel("peak |M| over every combination (kNm)")
+    ax.set_title("Thrust against bending: the trade-off")
+    ax.grid(True, lw=0.3)
+    ax.legend(fontsize=7)
+    return ax

@@ -356,3 +356,43 @@ def thrust_lines_csv(result: CheckResult) -> str:
              for c in result.collapse]
     return _csv(["kind", "combination", "state", "admissible", "factor", "hinges_x_m_face"],
                 [["" if isinstance(v, float) and math.isnan(v) else v for v in r] for r in rows])
+
+
+STUDY_COLUMNS = ["point", "span_m", "rise_m", "rise_over_span", "depth_m", "status", "objective", "objective_unit",
+                 "peak_M_governing_kNm", "peak_M_all_kNm", "peak_M_state", "max_thrust_kN", "peak_N_kN",
+                 "buckling_factor", "length_m", "volume_m3", "weight_kN", "worst_utilisation", "worst_check",
+                 "verdict", "reason"]
+
+
+def study_header(groups: list[str]) -> str:
+    """The study table's header line: fixed columns, then the thrust of each combination (kN)."""
+    return _csv(STUDY_COLUMNS + [f"thrust_{g}_kN" for g in groups], [])
+
+
+def study_line(row, groups: list[str]) -> str:
+    """One study row as a CSV line (no wall times: tables are identical whichever executor ran them)."""
+    thrust = dict(row.thrust_kN)
+    cells = [row.index, row.span_m, row.rise_m, row.rise_over_span, row.depth_m, row.status, row.objective,
+             row.objective_unit, row.peak_M_governing_kNm, row.peak_M_all_kNm, row.peak_M_state, row.max_thrust_kN,
+             row.peak_N_kN, row.buckling_factor, row.length_m, row.volume_m3, row.weight_kN, row.worst_utilisation,
+             row.worst_check, row.verdict, row.reason] + [thrust.get(g, math.nan) for g in groups]
+    text = _csv(["x"], [["" if isinstance(v, float) and math.isnan(v) else v for v in cells]])
+    return text.split("\n", 1)[1]
+
+
+def study_json(rows: list, groups: list[str], case_name: str) -> str:
+    """The study as JSON: units in the keys, failed values as null."""
+    def clean(v):
+        return None if isinstance(v, float) and not math.isfinite(v) else v
+
+    out = []
+    for r in rows:
+        item = dict(zip(STUDY_COLUMNS, [r.index, r.span_m, r.rise_m, r.rise_over_span, r.depth_m, r.status,
+                                        r.objective, r.objective_unit, r.peak_M_governing_kNm, r.peak_M_all_kNm,
+                                        r.peak_M_state, r.max_thrust_kN, r.peak_N_kN, r.buckling_factor, r.length_m,
+                                        r.volume_m3, r.weight_kN, r.worst_utilisation, r.worst_check, r.verdict,
+                                        r.reason], strict=True))
+        item = {k: clean(v) for k, v in item.items()}
+        item["thrust_kN"] = {g: clean(v) for g, v in r.thrust_kN}
+        out.append(item)
+    return dumps({"formfind_version": __version__, "case": case_name, "caution": CAUTION, "points": out}, indent=1)
