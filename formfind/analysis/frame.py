@@ -488,7 +488,7 @@ def functional_values(model: FrameModel, loads: StationLoads) -> np.ndarray:
     a few multiply-adds per element and state; no solve happens here.
     """
     maps = model.maps
-    flat = loads.dist.reshape(loads.count, -1)
+    flat = loads.dist.reshape(loads.count, int(np.prod(loads.dist.shape[1:])))  # also for zero states
     q = maps.dist.shape[0]
     values = flat @ maps.dist.reshape(q, -1).T if flat.any() else np.zeros((loads.count, q))
     values += np.outer(loads.temperature_uniform_C, maps.temperature_uniform)
