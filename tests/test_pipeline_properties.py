@@ -100,6 +100,9 @@ def _case(p):
 # found by this test: a two-hinged search whose live case is empty asked the frame for zero states
 @example({"span": 10.0, "ratio": 0.25, "depth": 1.0, "deck": 5.0, "live": 0.0, "kind": "two_hinged",
           "clearance": 0.5, "slope": None, "symmetric": True})
+# and a start steeper than max_slope whose objective no admissible axis could match
+@example({"span": 10.0, "ratio": 0.325, "depth": 0.416, "deck": 5.0, "live": 0.0, "kind": "three_hinged",
+          "clearance": 0.72, "slope": 1.0, "symmetric": False})
 def test_the_found_axis_keeps_every_limit_it_was_given(p):
     case = _case(p)
     try:

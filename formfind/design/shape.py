@@ -495,11 +495,15 @@ def _sequential(case: Case, axis: Axis, section: Section, setup: _Setup) -> Shap
                            g=setup.g, q=_rhs(setup, y, half, radius), jac=jac, x=x)
         sol = _solve(setup, data, y, None)
         total_time += sol.solve_time_s
+        restoring = False
         if sol.y is None:
-            # the trust region is for stability, not feasibility: open it if it shuts out every axis
+            # the trust region is for stability, not feasibility: open it if it shuts out every axis.
+            # The current axis then breaks a limit (e.g. the start is steeper than max_slope), so its
+            # objective is no yardstick: the step to an admissible axis is kept whatever it costs.
             data = replace(data, q=_rhs(setup, y, half, 10.0 * axis.span_m))
             sol = _solve(setup, data, y, None)
             total_time += sol.solve_time_s
+            restoring = True
         if sol.y is None:
             raise FormFindingError(_infeasible_message(case, setup, data, sol))
         change = float(np.abs(sol.y - y).max())
@@ -517,7 +521,7 @@ def _sequential(case: Case, axis: Axis, section: Section, setup: _Setup) -> Shap
             radius = min(2.0 * radius, largest)
         log.debug("step %d: radius %.3g change %.3g current %.9g trial %.9g ratio %.3g", number, radius, change,
                   current, value, ratio)
-        if actual >= -1e-10 * max(abs(current), 1e-12) and ratio > 0.01:
+        if restoring or (actual >= -1e-10 * max(abs(current), 1e-12) and ratio > 0.01):
             history.append(Iteration(number, value, change, residual))
             y, axis, response, loads, current, last = sol.y, candidate, trial, trial_loads, value, sol
             stalled = len(history) >= 3 and history[-3].objective - value <= STALL * max(abs(value), 1e-12)
