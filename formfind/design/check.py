@@ -74,6 +74,7 @@ class PatternEnvelope:
         maximum, minimum: (3, stations) the envelopes (sums of the positive / negative contributions).
         thrust_max_kN, thrust_min_kN: envelope of the thrust H.
         reaction_max, reaction_min: (2 supports, 3 [Rx kN, Ry kN, Mz kNm]) envelopes of the reactions.
+        influence_M: (load stations, stations) influence ordinates of M, kNm per kN of downward load.
     """
 
     load_kN_m: float
@@ -85,6 +86,7 @@ class PatternEnvelope:
     thrust_min_kN: float
     reaction_max: np.ndarray
     reaction_min: np.ndarray
+    influence_M: np.ndarray
 
     def loaded_lengths(self, effect: str, station: int, largest: bool = True) -> list[tuple[float, float]]:
         """The loaded lengths [(from m, to m), ...] of the pattern giving the max (or min) of ``effect``
@@ -225,7 +227,7 @@ def pattern_envelope(case: Case, analysis: CaseAnalysis, load_kN_m: float) -> Pa
         load_kN_m, x, contributions,
         np.clip(contributions, 0.0, None).sum(axis=1), np.clip(contributions, None, 0.0).sum(axis=1),
         float(np.clip(thrust, 0.0, None).sum()), float(np.clip(thrust, None, 0.0).sum()),
-        np.clip(reac, 0.0, None).sum(axis=0), np.clip(reac, None, 0.0).sum(axis=0),
+        np.clip(reac, 0.0, None).sum(axis=0), np.clip(reac, None, 0.0).sum(axis=0), lines.M,
     )
 
 

@@ -69,8 +69,9 @@ def drawing_bytes(case: Case, analysis: CaseAnalysis) -> bytes:
     return stream.getvalue().encode("utf-8")
 
 
-def figure_axes(case: Case, analysis: CaseAnalysis) -> dict[str, object]:
-    """The diagrams as matplotlib Axes, by file stem."""
+def figure_axes(case: Case, analysis: CaseAnalysis, checks=None) -> dict[str, object]:
+    """The diagrams as matplotlib Axes, by file stem (with a patterned load: its influence line of M
+    at the station where the pattern's moment is largest)."""
     axis = analysis.axis
     response = analysis.combinations if analysis.combinations.count else analysis.cases
     out: dict[str, object] = {}
@@ -80,6 +81,12 @@ def figure_axes(case: Case, analysis: CaseAnalysis) -> dict[str, object]:
     worst = max(envs, key=lambda e: float(np.abs(np.concatenate([e.maximum[2], e.minimum[2]])).max()))
     k = response.groups.index(worst.group)
     out["fig-moment-along"] = plots.plot_along_arch(axis, response.M[k], "M", worst.group)
+    for stem, effect, arr in (("fig-axial-along", "N", response.N), ("fig-shear-along", "V", response.V)):
+        out[stem] = plots.plot_along_arch(axis, arr[k], effect, worst.group)
+    if checks is not None and checks.pattern is not None:
+        i = int(np.argmax(checks.pattern.maximum[2]))
+        out["fig-influence-M"] = plots.plot_influence_line(
+            axis.x, checks.pattern.influence_M[:, i], f"M at x = {axis.x[i]:.2f} m", "kNm")
     for e, effect in enumerate(("N", "V", "M")):
         ax = plots.new_axes()
         for env in envs[:6]:
@@ -133,7 +140,7 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
                                                             case.outputs.setting_out_interval_m).encode()
         if drawings:
             out["axis.dxf"] = drawing_bytes(case, analysis)
-            axes = figure_axes(case, analysis)
+            axes = figure_axes(case, analysis, checks)
             figures = figure_files(case, analysis, axes)
             out.update(figures)
             svgs = {name: data for name, data in figures.items() if name.endswith(".svg")}
