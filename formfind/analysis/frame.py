@@ -241,7 +241,7 @@ def build_frame(
     GAs = mean(section.shear_modulus_kN_m2) * mean(section.shear_area_m2)
     k_local = _local_stiffness(length, EA, EI, GAs, shear_deformation)
     t = rotation_matrices(cos, sin)
-    k_global = np.einsum("eji,ejk,ekl->eil", t, k_local, t)
+    k_global = np.matmul(np.matmul(t.transpose(0, 2, 1), k_local), t)  # batched T^T k T
     rows = np.repeat(dofs, 6, axis=1).ravel()
     cols = np.tile(dofs, (1, 6)).ravel()
     data = k_global.ravel()

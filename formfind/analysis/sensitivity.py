@@ -67,7 +67,7 @@ def _element_state(model: FrameModel, length: np.ndarray, cos: np.ndarray, sin: 
     moved = replace(model, length=length, cos=cos, sin=sin)
     k_local = _local_stiffness(length, model.EA, model.EI, model.GAs, model.shear_deformation)
     t = rotation_matrices(cos, sin)
-    k_glob = np.einsum("eji,ejk,ekl->eil", t, k_local, t)
+    k_glob = np.matmul(np.matmul(t.transpose(0, 2, 1), k_local), t)  # batched T^T k T
     local = _distributed_local(moved, loads.dist)
     local += _thermal_local(moved, loads.temperature_uniform_C, loads.temperature_difference_C)
     f = _to_global(local, cos, sin)
