@@ -146,9 +146,27 @@ def test_study_command_writes_its_files_and_refuses_bad_ranges(tmp_path):
     assert (folder / "study.csv").read_text().count("\n") == 4
     assert {"study.json", "fig-study-thrust.png", "fig-study-pareto.svg", "manifest-study.json"} <= {
         p.name for p in folder.iterdir()}
+    axes = (folder / "study-axes.csv").read_text().splitlines()
+    assert axes[0] == "point,station,x_m,y_m" and len(axes) == 1 + 3 * 21  # every point's axis at its stations
+    crowns = [float(line.split(",")[3]) for line in axes[1:] if line.split(",")[1] == "10"]
+    assert crowns == pytest.approx([2.0, 4.0, 6.0], rel=1e-9)  # the swept rises at the crown
     assert not [p for p in folder.iterdir() if p.name.endswith(".part")]
     bad = run_formfind("study", str(path), "--span", "ten", "--out", str(tmp_path))
     assert bad.returncode == 2 and "--span" in bad.stderr and "Traceback" not in bad.stderr
     huge = run_formfind("study", str(path), "--rise-over-span", "0.1:0.3:200", "--span", "10:20:60", "--out",
                         str(tmp_path / "x"))
     assert huge.returncode == 3 and "at most 10000 points" in huge.stderr
+
+
+def test_study_command_runs_on_a_dask_scheduler(tmp_path, capsys):
+    distributed = pytest.importorskip("dask.distributed")
+    from formfind.cli import run_cli
+
+    path = tmp_path / "sweep.toml"
+    path.write_text(UNIFORM, encoding="utf-8")
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        code = run_cli(["study", str(path), "--rise-over-span", "0.15,0.3", "--scheduler", cluster.scheduler_address,
+                        "--out", str(tmp_path), "-q"])
+    assert code == 0
+    lines = (tmp_path / "sweep" / "study.csv").read_text().splitlines()
+    assert len(lines) == 3 and all(",ok," in line for line in lines[1:])

@@ -57,7 +57,8 @@ class StudyRow:
     ``status`` is "ok", "infeasible" (form finding's constraints conflict), or "failed" (another
     error); ``reason`` says why. ``thrust_kN`` maps each combination (or case) to its largest thrust.
     ``find_s`` and ``check_s`` are wall times, kept out of the tables so that they stay identical
-    whichever executor ran the study.
+    whichever executor ran the study. ``axis_x_m`` / ``axis_y_m`` hold the found axis at its stations
+    (m) until the writer has streamed it to its file.
     """
 
     index: int
@@ -82,6 +83,8 @@ class StudyRow:
     verdict: str = ""
     find_s: float = 0.0
     check_s: float = 0.0
+    axis_x_m: tuple[float, ...] = ()
+    axis_y_m: tuple[float, ...] = ()
 
     @property
     def rise_over_span(self) -> float:
@@ -212,6 +215,7 @@ def evaluate(case: Case, point: StudyPoint) -> StudyRow:
         worst_utilisation=math.nan if worst is None else float(worst.utilisation),
         worst_check=worst.name if worst else "", verdict="pass" if checks.passed else "fail",
         find_s=t1 - t0, check_s=t2 - t1,
+        axis_x_m=tuple(result.axis.x.tolist()), axis_y_m=tuple(result.axis.y.tolist()),
     )
 
 

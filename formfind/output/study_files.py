@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 from collections.abc import Iterable
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -24,7 +25,7 @@ FIGURES = ("fig-study-thrust", "fig-study-moment", "fig-study-buckling", "fig-st
 
 def study_names() -> list[str]:
     """Every file a study writes."""
-    return ["study.csv", "study.json", "manifest-study.json"] + [f"{s}.{e}" for s in FIGURES for e in ("png", "svg")]
+    return ["study.csv", "study-axes.csv", "study.json", "manifest-study.json"] + [f"{s}.{e}" for s in FIGURES for e in ("png", "svg")]
 
 
 def groups_of(case: Case) -> list[str]:
@@ -33,16 +34,21 @@ def groups_of(case: Case) -> list[str]:
 
 
 def write_study(folder: Path, case: Case, rows: Iterable[StudyRow], overwrite: bool) -> tuple[list[Path], list[StudyRow]]:
-    """Stream ``rows`` into study.csv, then write study.json, the plots and manifest-study.json."""
+    """Stream ``rows`` into study.csv (and each point's found axis into study-axes.csv), then write
+    study.json, the plots and manifest-study.json."""
     files.prepare_folder(folder, study_names(), overwrite)
     groups = groups_of(case)
     kept: list[StudyRow] = []
-    with files.StreamingFile(folder / "study.csv") as out:
+    with files.StreamingFile(folder / "study.csv") as out, files.StreamingFile(folder / "study-axes.csv") as axes:
         out.write(tables.study_header(groups))
+        axes.write("point,station,x_m,y_m\n")
         for row in rows:
             out.write(tables.study_line(row, groups))
-            kept.append(row)
+            axes.write("".join(f"{row.index},{i},{x!r},{y!r}\n"
+                               for i, (x, y) in enumerate(zip(row.axis_x_m, row.axis_y_m, strict=True))))
+            kept.append(replace(row, axis_x_m=(), axis_y_m=()))  # the axis is on disk: let it go
         csv_path = out.commit()
+        axes_path = axes.commit()
     contents: dict[str, bytes] = {"study.json": tables.study_json(kept, groups, case.name).encode()}
     own = case.geometry.rise_m / case.geometry.span_m
     for stem, quantity in zip(FIGURES[:4], plots.STUDY_QUANTITIES, strict=True):
@@ -54,10 +60,10 @@ def write_study(folder: Path, case: Case, rows: Iterable[StudyRow], overwrite: b
     ax = plots.plot_pareto(thrust, moment, pareto_front(thrust, moment), ratios)
     for fmt, data in _figure_bytes(ax).items():
         contents[f"{FIGURES[4]}.{fmt}"] = data
-    written = [csv_path]
+    written = [csv_path, axes_path]
     manifest = {"formfind_version": __version__, "files": [
-        {"name": "study.csv", "bytes": csv_path.stat().st_size,
-         "sha256": hashlib.sha256(csv_path.read_bytes()).hexdigest()}]}
+        {"name": p.name, "bytes": p.stat().st_size, "sha256": hashlib.sha256(p.read_bytes()).hexdigest()}
+        for p in (csv_path, axes_path)]}
     for name in sorted(contents):
         written.append(files.write_bytes(folder / name, contents[name]))
         manifest["files"].append({"name": name, "bytes": len(contents[name]),
