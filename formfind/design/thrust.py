@@ -44,7 +44,8 @@ from formfind.model.geometry import Axis
 from formfind.model.loads import StationLoads
 
 ZONE_TOLERANCE = 1e-4  # relative bisection tolerance of the least zone fraction
-LARGEST_ZONE = 50.0  # a zone 50 times the ring: beyond it the line of thrust is "nowhere near"
+LARGEST_ZONE = 50.0
+SMALLEST_ZONE = 1e-6  # a line of thrust within a millionth of the depth: a funicular axis, factor "inf"  # a zone 50 times the ring: beyond it the line of thrust is "nowhere near"
 NO_COLLAPSE = 1e4  # the live-load factor is capped here (a live load the ring carries at any factor)
 HINGE_DUAL = 1e-7  # a joint constraint with a dual above this (relative to the largest) is a hinge
 
@@ -184,14 +185,17 @@ class ZoneResult:
 def least_zone_fraction(program: _ZoneProgram, state: int, tol: float = ZONE_TOLERANCE) -> float:
     """The least zone fraction s (zone half-width s d/2) that holds a thrust line, by bisection.
 
-    Returns ``inf`` if not even a zone of ``LARGEST_ZONE`` times the ring does.
+    Returns ``inf`` if not even a zone of ``LARGEST_ZONE`` times the ring does, and 0 if a zone of
+    ``SMALLEST_ZONE`` already does (the axis is a funicular of the loads).
     """
     hi = 1.0
     while not program.feasible(state, hi):
         hi *= 2.0
         if hi > LARGEST_ZONE:
             return float("inf")
-    lo = 0.0
+    if program.feasible(state, SMALLEST_ZONE):
+        return 0.0  # the line of thrust (all but) follows the axis: no zone is too thin
+    lo = SMALLEST_ZONE
     while hi - lo > tol * hi:
         mid = 0.5 * (lo + hi)
         if program.feasible(state, mid):

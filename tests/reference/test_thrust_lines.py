@@ -151,3 +151,27 @@ def test_joint_forces_are_affine_in_the_reactions_and_hinges_carry_no_moment():
     # the left springing's own moment is the reaction moment: M(0) = -Mz (sign of response.py)
     r = np.array([3.0, 2.0, 0.7])
     assert (j.M[0] + j.A_M @ r)[0] == pytest.approx(-0.7, abs=1e-12)
+
+
+def test_a_three_hinged_funicular_ring_has_its_line_of_thrust_on_the_axis():
+    """A three-hinged parabola under a uniform load per horizontal metre: the line of thrust is the
+    axis itself (Hibbeler, three-hinged arches; from memory), so no zone is too thin, while a point
+    load pushes it off by M/N, which fixes the geometric factor exactly (statically determinate)."""
+    from formfind.model.geometry import Parabola
+    from formfind.model.loads import LineLoad
+
+    span, rise, depth = 20.0, 5.0, 0.6
+    curve = Parabola(Chord(span), rise)
+    axis = Axis.from_curve(curve, place_stations(curve, 41))
+    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6).at(axis)
+    uniform = case_station_loads(LoadCase("w", (LineLoad(0.0, span, 10.0, 10.0),)), axis, sec)
+    hinge = 20
+    assert admissibility(axis, uniform, sec.depth_m, 1.0, SupportKind.THREE_HINGED, hinge)[0].geometric_factor == np.inf
+    point = case_station_loads(LoadCase("p", (LineLoad(0.0, span, 10.0, 10.0), PointLoad(5.0, 20.0))), axis, sec)
+    from formfind.analysis.statics import three_hinged
+
+    r = three_hinged(axis, point, hinge)
+    e = np.abs(r.M[0] / np.maximum(r.N[0], r.N_left[0]))  # both sides of a joint: the less compressed one
+    expected = (0.5 * depth) / e.max()  # the zone must reach the largest eccentricity
+    factor = admissibility(axis, point, sec.depth_m, 1.0, SupportKind.THREE_HINGED, hinge)[0].geometric_factor
+    assert factor == pytest.approx(expected, rel=1e-3)  # the bisection's tolerance (1e-4) and N's side
