@@ -89,7 +89,7 @@ def _num(value: float | None, digits: int = 4) -> str:
     if value is None:
         return ""
     if isinstance(value, float | np.floating) and not np.isfinite(value):
-        return "none" if value > 0 else "-inf"
+        return "inf" if value > 0 else "-inf"
     return f"{value:.{digits}g}"
 
 
