@@ -401,8 +401,8 @@ def _eccentricity_row(limit_kind, response, M, N, sec, pattern, terms, x, note) 
             for s, sign in enumerate((1.0, -1.0)):
                 mask = (sign * m_c + n_c * bound[None, :]) > 0
                 masks[key, s] = mask
-                m_tot = M[rows] + (m_c * mask).sum(0)
-                n_tot = N[rows] + (n_c * mask).sum(0)
+                m_tot = M[rows] + np.einsum("ji,ji->i", m_c, mask)
+                n_tot = N[rows] + np.einsum("ji,ji->i", n_c, mask)
                 with np.errstate(divide="ignore", invalid="ignore"):
                     r = np.where(n_tot < 0, np.abs(m_tot / n_tot), np.inf) / bound
                 chosen[rows] = np.where(r > best, s, chosen[rows])

@@ -307,11 +307,18 @@ class StationLoads:
             t_u += f * self.temperature_uniform_C[idx]
             t_d += f * self.temperature_difference_C[idx]
             sup += f * self.support_movement[idx]
-            for k, s in enumerate(idx):
-                sel = self.point_state == s
-                ps.append(np.full(int(sel.sum()), k))
+            if len(states) > 1:  # a moving train: state s of the group becomes combination state k
+                position = -np.ones(self.count, dtype=int)
+                position[states] = np.arange(len(states))
+                sel = position[self.point_state] >= 0
+                ps.append(position[self.point_state[sel]])
                 px.append(self.point_x[sel])
                 pf.append(f * self.point_force[sel])
+            else:  # a single-state case: its point loads repeat in every combination state
+                sel = self.point_state == states[0]
+                ps.append(np.repeat(np.arange(count), int(sel.sum())))
+                px.append(np.tile(self.point_x[sel], count))
+                pf.append(np.tile(f * self.point_force[sel], (count, 1)))
         if multi:
             base = self.names[spans[multi[0][0]][0]].split("@", 1)[0]
             names = tuple(name + "@" + self.names[s][len(base) + 1 :] for s in spans[multi[0][0]])
