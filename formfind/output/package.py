@@ -27,7 +27,8 @@ from formfind.output.dxf import DrawingContent, build_drawing
 MAX_THRUST_LINES = 4
 
 
-def _figure_bytes(ax) -> dict[str, bytes]:
+def figure_bytes(ax) -> dict[str, bytes]:
+    """A figure as PNG and SVG bytes (SVG without a date, so reruns give the same bytes)."""
     fig = ax.figure
     fig.tight_layout()
     out = {}
@@ -104,7 +105,7 @@ def figure_files(case: Case, analysis: CaseAnalysis, axes: dict[str, object] | N
     """The diagrams as PNG and SVG bytes, by file name."""
     out: dict[str, bytes] = {}
     for stem, ax in (axes or figure_axes(case, analysis)).items():
-        for fmt, data in _figure_bytes(ax).items():
+        for fmt, data in figure_bytes(ax).items():
             out[f"{stem}.{fmt}"] = data
     return out
 

@@ -18,7 +18,7 @@ from formfind import __version__
 from formfind.design.study import StudyRow, pareto_front
 from formfind.model.case import Case
 from formfind.output import files, plots, tables
-from formfind.output.package import _figure_bytes
+from formfind.output.package import figure_bytes
 
 FIGURES = ("fig-study-thrust", "fig-study-moment", "fig-study-buckling", "fig-study-material", "fig-study-pareto")
 
@@ -52,13 +52,13 @@ def write_study(folder: Path, case: Case, rows: Iterable[StudyRow], overwrite: b
     contents: dict[str, bytes] = {"study.json": tables.study_json(kept, groups, case.name).encode()}
     own = case.geometry.rise_m / case.geometry.span_m
     for stem, quantity in zip(FIGURES[:4], plots.STUDY_QUANTITIES, strict=True):
-        for fmt, data in _figure_bytes(plots.plot_study(kept, quantity, own)).items():
+        for fmt, data in figure_bytes(plots.plot_study(kept, quantity, own)).items():
             contents[f"{stem}.{fmt}"] = data
     thrust = np.array([r.max_thrust_kN if r.status == "ok" else np.nan for r in kept])
     moment = np.array([r.peak_M_all_kNm if r.status == "ok" else np.nan for r in kept])
     ratios = np.array([r.rise_over_span for r in kept])
     ax = plots.plot_pareto(thrust, moment, pareto_front(thrust, moment), ratios)
-    for fmt, data in _figure_bytes(ax).items():
+    for fmt, data in figure_bytes(ax).items():
         contents[f"{FIGURES[4]}.{fmt}"] = data
     written = [csv_path, axes_path]
     manifest = {"formfind_version": __version__, "files": [
