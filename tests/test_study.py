@@ -170,3 +170,15 @@ def test_study_command_runs_on_a_dask_scheduler(tmp_path, capsys):
     assert code == 0
     lines = (tmp_path / "sweep" / "study.csv").read_text().splitlines()
     assert len(lines) == 3 and all(",ok," in line for line in lines[1:])
+
+
+def test_the_package_api_does_the_whole_job():
+    import formfind
+
+    case = _case()
+    shape = formfind.find_shape(case)
+    verdicts = formfind.check(case, formfind.analyse(case, axis=shape.axis))
+    rows = list(formfind.run_study(case, formfind.grid((20.0,), (0.2,))))
+    assert isinstance(verdicts, formfind.CheckResult) and verdicts.rows
+    # the same point through the study and by hand: the same optimum
+    assert rows[0].objective == pytest.approx(shape.value, rel=1e-9, abs=1e-9)
