@@ -8,7 +8,7 @@ combination.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -81,6 +81,41 @@ def combination_buckling(case: Case, model: FrameModel, loads: StationLoads, res
     return tuple(out)
 
 
+BUCKLING_STATIONS = 241  # buckling of finer models runs on a subset of this many stations (see below)
+
+
+def _buckling_model(case: Case, axis: Axis, section: SectionAlong, model: FrameModel, loads: LoadSet):
+    """The frame model and combination loads the buckling analysis runs on.
+
+    A linear buckling factor converges with the square of the element length, and 240 elements
+    put it within about 1e-5 of the limit for the arches formfind meets; finer models (and the
+    eigen-solver's cost with them) buy nothing. So above ``BUCKLING_STATIONS`` stations the buckling
+    model keeps an evenly spread subset of the stations, every required one (hinge, ends of loads)
+    among them, with the same load states; mode shapes are interpolated back to every station.
+    """
+    if axis.count <= BUCKLING_STATIONS:
+        return model, loads.combinations, None
+    keep = set(np.round(np.linspace(0, axis.count - 1, BUCKLING_STATIONS)).astype(int).tolist())
+    for xr in case.required_stations():
+        keep.add(int(np.argmin(np.abs(axis.x - xr))))
+    if case.supports.kind is SupportKind.THREE_HINGED:
+        keep.add(case.hinge_station(axis))
+    idx = np.array(sorted(keep))
+    coarse = Axis(axis.x[idx], axis.y[idx], axis.theta[idx])
+    coarse_section = case.section.at(coarse)
+    coarse_loads = build_load_set(case.cases, case.combinations, coarse, coarse_section).combinations
+    return frame_model(case, coarse, coarse_section), coarse_loads, coarse
+
+
+def _to_stations(result: BucklingResult, coarse: Axis | None, axis: Axis) -> BucklingResult:
+    """Mode shapes of a coarse buckling model interpolated to every station of ``axis``."""
+    if coarse is None or not result.modes.size:
+        return result
+    modes = np.stack([np.stack([np.interp(axis.x, coarse.x, m[:, c]) for c in range(3)], axis=-1)
+                      for m in result.modes])
+    return replace(result, modes=modes)
+
+
 def analyse(
     case: Case, axis: Axis | None = None, buckling: bool | None = None, displacements: bool = False
 ) -> CaseAnalysis:
@@ -99,6 +134,10 @@ def analyse(
     needs_frame = case.supports.kind is not SupportKind.THREE_HINGED or want_buckling
     model = frame_model(case, axis, section) if needs_frame else None
     combos = respond(case, axis, loads.combinations, model, displacements)
+    buckling: tuple[BucklingResult, ...] = ()
+    if want_buckling and model:
+        b_model, b_loads, coarse = _buckling_model(case, axis, section, model, loads)
+        buckling = tuple(_to_stations(b, coarse, axis) for b in combination_buckling(case, b_model, b_loads, combos))
     return CaseAnalysis(
         case=case,
         axis=axis,
@@ -106,6 +145,6 @@ def analyse(
         loads=loads,
         cases=respond(case, axis, loads.cases, model, displacements),
         combinations=combos,
-        buckling=combination_buckling(case, model, loads.combinations, combos) if want_buckling and model else (),
+        buckling=buckling,
         frame=model,
     )
