@@ -366,17 +366,25 @@ def _stress_sets(response, fibre_a, fibre_b, pattern, terms, sec):
     hi = np.maximum(fibre_a, fibre_b)
     if pattern is None:
         return lo, hi
-    A, W = sec.area_m2, sec.section_modulus_m3
-    n_c, m_c = pattern.contributions[0], pattern.contributions[2]
+    na = pattern.contributions[0] / sec.area_m2  # (load stations, stations), kN/m2
+    mw = pattern.contributions[2] / sec.section_modulus_m3
+    na_total, mw_total = na.sum(0), mw.sum(0)
+
+    def split(sign: float, amp: float) -> tuple[np.ndarray, np.ndarray]:
+        # sums of the negative and positive contributions of N/A + sign amp M/W: the total is known,
+        # so only the positive part needs a pass over the matrix
+        c = na + (sign * amp) * mw
+        positive = np.maximum(c, 0.0, out=c).sum(0)
+        return na_total + sign * amp * mw_total - positive, positive
+
     for key in {t for t in terms if t is not None}:
         f, amp = key
-        ca = f * (n_c / A + amp * m_c / W)  # (load stations, stations)
-        cb = f * (n_c / A - amp * m_c / W)
         rows = [k for k, t in enumerate(terms) if t == key]
-        a_lo, a_hi = np.clip(ca, None, 0).sum(0), np.clip(ca, 0, None).sum(0)
-        b_lo, b_hi = np.clip(cb, None, 0).sum(0), np.clip(cb, 0, None).sum(0)
-        lo[rows] = np.minimum(fibre_a[rows] + a_lo, fibre_b[rows] + b_lo)
-        hi[rows] = np.maximum(fibre_a[rows] + a_hi, fibre_b[rows] + b_hi)
+        (a_neg, a_pos), (b_neg, b_pos) = split(1.0, amp), split(-1.0, amp)
+        if f < 0:  # a negative factor turns the adverse pattern round
+            a_neg, a_pos, b_neg, b_pos = a_pos, a_neg, b_pos, b_neg
+        lo[rows] = np.minimum(fibre_a[rows] + f * a_neg, fibre_b[rows] + f * b_neg)
+        hi[rows] = np.maximum(fibre_a[rows] + f * a_pos, fibre_b[rows] + f * b_pos)
     return lo, hi
 
 
@@ -392,17 +400,18 @@ def _eccentricity_row(limit_kind, response, M, N, sec, pattern, terms, x, note) 
     masks: dict = {}
     chosen = np.full(ratio_e.shape, -1)  # which sign's pattern governs, per state and station
     if pattern is not None:
+        n_c, m_c = pattern.contributions[0], pattern.contributions[2]
+        n_b = n_c * bound[None, :]
         for key in {t for t in terms if t is not None}:
             # the pattern maximising the margin |M| + N b (linear in the loads) governs; its e/b is reported
             f, amp = key
             rows = [k for k, t in enumerate(terms) if t == key]
-            n_c, m_c = f * pattern.contributions[0], f * amp * pattern.contributions[2]
             best = np.full((len(rows), x.size), -np.inf)
             for s, sign in enumerate((1.0, -1.0)):
-                mask = (sign * m_c + n_c * bound[None, :]) > 0
+                mask = f * (n_b + (sign * amp) * m_c) > 0
                 masks[key, s] = mask
-                m_tot = M[rows] + np.einsum("ji,ji->i", m_c, mask)
-                n_tot = N[rows] + np.einsum("ji,ji->i", n_c, mask)
+                m_tot = M[rows] + (f * amp) * np.einsum("ji,ji->i", m_c, mask)
+                n_tot = N[rows] + f * np.einsum("ji,ji->i", n_c, mask)
                 with np.errstate(divide="ignore", invalid="ignore"):
                     r = np.where(n_tot < 0, np.abs(m_tot / n_tot), np.inf) / bound
                 chosen[rows] = np.where(r > best, s, chosen[rows])
