@@ -125,7 +125,7 @@ def test_pdf_report_has_its_pages(package):
     assert pdf.startswith(b"%PDF")
     figures = sum(1 for n in files if n.endswith(".svg"))
     pages = pdf.count(b"/Type /Page\n") + pdf.count(b"/Type /Page ") + pdf.count(b"/Type /Page>")
-    assert pages >= 4 + figures  # cover, results, verdicts, warnings, then one page per diagram
+    assert pages == 6 + figures  # cover, inputs, method, results, verdicts, warnings; a page per diagram
 
 
 def _browser() -> str | None:

@@ -22,6 +22,7 @@ import hashlib
 import html
 import io
 import re
+import textwrap
 from importlib import metadata
 from pathlib import Path
 
@@ -274,6 +275,25 @@ def report_pdf(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | N
                   [f"case {case.name}" + (f", generated {generated}" if generated else ""),
                    f"case file {case.source or '(built in code)'}", f"SHA-256 {input_digest(case) or '(no file)'}"]
                   + [f"{k} {v}" for k, v in ver.items()] + [""] + list(CAUTIONS)))
+    g, sec = case.geometry, case.section
+    inputs = [f"span {g.span_m:g} m, rise {g.rise_m:.4g} m, given axis {g.shape.value}, supports "
+              f"{case.supports.kind.value}", f"rib: depth {sec.depth_m:g} m, area {sec.area_m2:.4g} m2, second moment "
+              f"{sec.second_moment_m4:.4g} m4, E {sec.elastic_modulus_kN_m2 / 1000:g} MPa, unit weight "
+              f"{sec.unit_weight_kN_m3:g} kN/m3 ({sec.variation.value})",
+              "load cases: " + ", ".join(f"{c.name} ({c.action.value})" for c in case.cases)]
+    inputs += [f"combination {c.name}: " + ", ".join(f"{f:g} x {n}" for n, f in c.factors) for c in case.combinations]
+    inputs += ["", "defaults filled in:"] + [f"  {d}" for d in case.defaults_used]
+    pages.append(("Inputs", inputs))
+    method = [f"sign conventions: {SIGN_CONVENTION}"]
+    if analysis is not None:
+        method.insert(0, f"engine {analysis.cases.engine}, {analysis.axis.count} stations "
+                         f"({case.stations.spacing.value} spacing), arc length {analysis.axis.length_m:.4g} m")
+    if shape is not None:
+        method += ["", f"form finding: {shape.objective.value} = {shape.value:.6g} {shape.unit} ({shape.method}, "
+                       f"{shape.solver}, {shape.status}); exact re-check {shape.checked_value:.6g} {shape.unit}; "
+                       f"dual bound {_num(shape.dual_bound, 6)}; gap {shape.gap:.1e}"]
+        method += [f"binding: {a.name} at {len(a.stations)} stations (cost {_num(a.cost)} {a.unit})" for a in shape.active]
+    pages.append(("Assumptions and method", method))
     if analysis is not None:
         lines = [f"{'name':<24} {'H kN':>10} {'peak M kNm':>11} {'x m':>7} {'peak N kN':>10} {'peak V kN':>10}"]
         for resp in (analysis.cases, analysis.combinations):
@@ -294,11 +314,11 @@ def report_pdf(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | N
     with PdfPages(buf, metadata={"Creator": f"formfind {__version__}", "CreationDate": None}) as pdf:
         for title, lines in pages:
             fig = Figure(figsize=(8.27, 11.69))
-            fig.text(0.06, 0.95, title, fontsize=14, weight="bold", va="top")
+            fig.text(0.06, 0.95, "\n".join(textwrap.wrap(title, 60)), fontsize=13, weight="bold", va="top")
             wrapped = []
             for line in lines:
-                wrapped += [line[i:i + 110] for i in range(0, max(len(line), 1), 110)]
-            fig.text(0.06, 0.91, "\n".join(wrapped[:80]), fontsize=7, family="monospace", va="top")
+                wrapped += textwrap.wrap(line, 110, subsequent_indent="  ") or [""]
+            fig.text(0.06, 0.88, "\n".join(wrapped[:90]), fontsize=7, family="monospace", va="top")
             pdf.savefig(fig)
         for ax in figure_axes:
             pdf.savefig(ax.figure)
