@@ -97,6 +97,16 @@ def axial_from_reactions(axis: Axis, loads: StationLoads, left_force: np.ndarray
 
 def geometric_stiffness(model: FrameModel, axial: np.ndarray) -> sp.csc_matrix:
     """Global geometric stiffness for element axial forces ``axial`` (elements,), tension positive."""
+    dofs = model.element_dofs
+    rows = np.repeat(dofs, 6, axis=1).ravel()
+    cols = np.tile(dofs, (1, 6)).ravel()
+    n = model.dof_count
+    return sp.csc_matrix(sp.coo_matrix((geometric_blocks(model, axial).ravel(), (rows, cols)), shape=(n, n)))
+
+
+def geometric_blocks(model: FrameModel, axial: np.ndarray) -> np.ndarray:
+    """Element geometric stiffness matrices in global axes (elements, 6, 6), for element axial forces
+    ``axial`` (elements,) kN, tension positive; dofs as ``model.element_dofs``."""
     L = model.length
     kg = np.zeros((L.size, 6, 6))
     a = axial / (30.0 * L)
@@ -107,12 +117,7 @@ def geometric_stiffness(model: FrameModel, axial: np.ndarray) -> sp.csc_matrix:
     kg[:, 2, 2] = kg[:, 5, 5] = 4 * L**2 * a
     kg[:, 2, 5] = kg[:, 5, 2] = -(L**2) * a
     t = rotation_matrices(model.cos, model.sin)
-    kglob = np.matmul(np.matmul(t.transpose(0, 2, 1), kg), t)  # batched T^T k T; einsum is slower here
-    dofs = model.element_dofs
-    rows = np.repeat(dofs, 6, axis=1).ravel()
-    cols = np.tile(dofs, (1, 6)).ravel()
-    n = model.dof_count
-    return sp.csc_matrix(sp.coo_matrix((kglob.ravel(), (rows, cols)), shape=(n, n)))
+    return np.matmul(np.matmul(t.transpose(0, 2, 1), kg), t)  # batched T^T k T; einsum is slower here
 
 
 def pressure_load_stiffness(model: FrameModel, loads: StationLoads, state: int) -> sp.csc_matrix:

@@ -24,7 +24,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
-from formfind.analysis.buckling import axial_from_reactions, element_axial_forces, geometric_stiffness
+from formfind.analysis.buckling import axial_from_reactions, element_axial_forces, geometric_blocks
 from formfind.analysis.frame import (
     RESIDUAL_RTOL,
     FrameModel,
@@ -81,7 +81,53 @@ def _moved_loads(axis: Axis, deflected: Axis, loads: StationLoads) -> StationLoa
                         loads.temperature_uniform_C, loads.temperature_difference_C, loads.support_movement)
 
 
-def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iterations: int):
+class _Tangent:
+    """K + K_G(N) written straight into the sparsity patterns of its blocks (free-free, scaled for the
+    LU; free-fixed; fixed rows), so an iteration costs no sparse slicing or conversion.
+
+    The geometric stiffness lives on the element pattern, a subset of K's (K may also hold a tie).
+    """
+
+    def __init__(self, model: FrameModel) -> None:
+        K = model.stiffness.tocsc(copy=True)
+        K.sum_duplicates()
+        K.sort_indices()
+        n = K.shape[0]
+        self.base = K.data.copy()
+        self.nnz = K.nnz
+        dofs = model.element_dofs
+        rows = np.repeat(dofs, 6, axis=1).ravel().astype(np.int64)
+        cols = np.tile(dofs, (1, 6)).ravel().astype(np.int64)
+        entry_col = np.repeat(np.arange(n, dtype=np.int64), np.diff(K.indptr))
+        self.position = np.searchsorted(entry_col * n + K.indices, cols * n + rows)
+        numbered = sp.csc_matrix((np.arange(1, K.nnz + 1, dtype=float), K.indices, K.indptr), shape=K.shape)
+
+        def block(r: np.ndarray, c: np.ndarray):
+            b = numbered[r][:, c].tocsc()
+            b.sort_indices()
+            return b.indices.copy(), b.indptr.copy(), (b.data - 1).astype(np.int64), b.shape
+
+        self.ff = block(model.free, model.free)
+        self.fr = block(model.free, model.fixed)
+        self.r = block(model.fixed, np.arange(n))
+        d = model._scale
+        ff_cols = np.repeat(np.arange(self.ff[3][1]), np.diff(self.ff[1]))
+        self.ff_scale = d[self.ff[0]] * d[ff_cols]
+
+    def blocks(self, model: FrameModel, axial: np.ndarray):
+        """(K_ff, scaled K_ff, K_fr, K_r) of K + K_G(axial)."""
+        data = self.base + np.bincount(self.position, geometric_blocks(model, axial).ravel(), minlength=self.nnz)
+
+        def make(spec, values=None):
+            indices, indptr, where, shape = spec
+            return sp.csc_matrix((data[where] if values is None else values, indices, indptr), shape=shape)
+
+        k_ff = make(self.ff)
+        scaled = make(self.ff, k_ff.data * self.ff_scale)
+        return k_ff, scaled, make(self.fr), make(self.r)
+
+
+def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iterations: int, tangent: _Tangent):
     f = load_vectors(model, one)[0]
     free, fixed = model.free, model.fixed
     u = np.zeros(model.dof_count)
@@ -89,16 +135,14 @@ def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iteration
     axial = element_axial_forces(model, one)[0]
     scale_n = max(float(np.abs(axial).max()), 1e-300)
     change = np.inf
+    d = model._scale
     for iteration in range(1, max_iterations + 1):  # noqa: B007 - the count is returned
-        kt = (model.stiffness + geometric_stiffness(model, axial)).tocsc()
-        k_ff = kt[free][:, free].tocsc()
-        rhs = f[free] - kt[free][:, fixed] @ u[fixed]
-        d = model._scale
+        k_ff, scaled, k_fr, k_r = tangent.blocks(model, axial)
+        rhs = f[free] - k_fr @ u[fixed]
         try:
             # a symmetric ordering and no row pivoting: U's diagonal then has the signs of the
             # eigenvalues (Sylvester's law of inertia), which tells a state beyond buckling
-            lu = splu((sp.diags(d) @ k_ff @ sp.diags(d)).tocsc(), permc_spec="MMD_AT_PLUS_A",
-                      diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+            lu = splu(scaled, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
         except RuntimeError:
             raise AnalysisError(f"second-order analysis of {one.names[0]!r}: the tangent stiffness is singular "
                                 "(the state is at its buckling load)") from None
@@ -113,7 +157,7 @@ def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iteration
             raise AnalysisError(f"second-order solve of {one.names[0]!r} is not trustworthy: backward error "
                                 f"{residual / denom:.2e} > {RESIDUAL_RTOL:.0e}")
         u[free] = u_f
-        reactions_fe = kt[fixed] @ u - f[fixed]
+        reactions_fe = k_r @ u - f[fixed]
         deflected = _deflected(model.axis, u)
         moved = _moved_loads(model.axis, deflected, one)
         tie = _tie_force(model, u, deflected)
@@ -176,9 +220,11 @@ def second_order(model: FrameModel, loads: StationLoads, tol: float = AXIAL_RTOL
     disp = np.zeros((count, n, 3))
     iterations = np.zeros(count, dtype=int)
     change = np.zeros(count)
+    tangent = _Tangent(model)
     for k in range(count):
         one = loads.select([k])
-        u, reactions_fe, tie, deflected, moved, iterations[k], change[k] = _solve_state(model, one, tol, max_iterations)
+        u, reactions_fe, tie, deflected, moved, iterations[k], change[k] = _solve_state(model, one, tol, max_iterations,
+                                                                                        tangent)
         left, r, cuts = _left_reaction(model, deflected, moved, reactions_fe, tie)
         forces = internal_forces(deflected, cuts, left, r[:, 0, 2])
         for arr, value in zip((N, V, M, N_left, V_left), forces, strict=True):

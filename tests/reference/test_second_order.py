@@ -94,3 +94,19 @@ def test_check_uses_p_delta_below_the_threshold_and_says_so():
     amplified = check(parse_case(data, "t.toml"), result)
     assert set(amplified.second_order) == {"amplification"}
     assert amplified.amplification[0] == pytest.approx(1.0 / (1.0 - 1.0 / alpha))
+
+
+@pytest.mark.parametrize("kind", [SupportKind.FIXED, SupportKind.THREE_HINGED, SupportKind.TIED])
+def test_every_support_system_tends_to_first_order_under_a_vanishing_load(kind):
+    """The same limit for fixed, three-hinged (hinge release) and tied (tie outside the element
+    pattern) ribs: the tangent stiffness is assembled into each block's pattern correctly."""
+    curve = Parabola(Chord(SPAN), RISE)
+    axis = Axis.from_curve(curve, place_stations(curve, 81, required_x=(20.0,)))
+    section = Section(0.02, 2e-4, 0.15, 2.1e8).at(axis)
+    hinge = int(np.argmin(np.abs(axis.x - 20.0))) if kind is SupportKind.THREE_HINGED else None
+    model = build_frame(axis, section, kind, hinge, tie_EA_kN=4e6 if kind is SupportKind.TIED else None)
+    loads = _loads(axis, section, 1e-6)
+    first = solve(model, loads)
+    second = second_order(model, loads).response
+    np.testing.assert_allclose(second.M[0], first.M[0], rtol=1e-4, atol=1e-6 * np.abs(first.M).max())
+    np.testing.assert_allclose(second.thrust, first.thrust, rtol=1e-5)
