@@ -160,7 +160,7 @@ def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iteration
         reactions_fe = k_r @ u - f[fixed]
         deflected = _deflected(model.axis, u)
         moved = _moved_loads(model.axis, deflected, one)
-        tie = _tie_force(model, u, deflected)
+        tie = _tie_force(model, u)
         left = _left_reaction(model, deflected, moved, reactions_fe, tie)[0]
         dx, dy = np.diff(deflected.x), np.diff(deflected.y)
         chord = np.hypot(dx, dy)
@@ -178,7 +178,7 @@ def _solve_state(model: FrameModel, one: StationLoads, tol: float, max_iteration
     return u, reactions_fe, tie, deflected, moved, iteration, change
 
 
-def _tie_force(model: FrameModel, u: np.ndarray, deflected: Axis) -> float:
+def _tie_force(model: FrameModel, u: np.ndarray) -> float:
     if model.kind is not SupportKind.TIED:
         return 0.0
     n = model.axis.count

@@ -493,11 +493,7 @@ def patterned_envelope(influence: np.ndarray, x: np.ndarray, load_kN_m: float) -
     to the stations by tributary length, so the result is exact for influence lines linear between
     stations. Returns (maximum, minimum), each (stations,).
     """
-    trib = np.zeros(x.size)
-    trib[:-1] += 0.5 * np.diff(x)
-    trib[1:] += 0.5 * np.diff(x)
-    weights = load_kN_m * trib[:, None]
-    contribution = influence * weights
+    contribution = influence * (load_kN_m * tributary(x)[:, None])
     return np.clip(contribution, 0.0, None).sum(axis=0), np.clip(contribution, None, 0.0).sum(axis=0)
 
 

@@ -346,7 +346,7 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
 
 
 @contextlib.contextmanager
-def _silent_stdout():
+def silent_stdout():
     """Send file descriptor 1 to /dev/null: HiGHS writes its banner there from C++, whatever its
     output options say (a known HiGHS/cvxpy issue), and solvers must not print."""
     sys.stdout.flush()
@@ -380,7 +380,7 @@ def _run(problem, solver: str) -> str:
 
     try:
         if solver == "HIGHS":
-            with _silent_stdout():
+            with silent_stdout():
                 problem.solve(solver=solver, output_flag=False)
         else:
             problem.solve(solver=solver)

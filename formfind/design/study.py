@@ -31,7 +31,7 @@ import numpy as np
 
 from formfind.errors import CaseError, FormfindError
 from formfind.model.case import Case, FindSettings, Supports
-from formfind.model.loads import AxleTrain, LineLoad, LoadCase, NormalPressure, PointLoad
+from formfind.model.loads import LineLoad, LoadCase, NormalPressure, PointLoad
 from formfind.model.section import Section
 
 MAX_POINTS = 10_000  # a sweep larger than this is refused (documented in the README)
@@ -134,9 +134,7 @@ def _scale_load(load, k: float):
     if isinstance(load, NormalPressure):
         return replace(load, from_x_m=None if load.from_x_m is None else load.from_x_m * k,
                        to_x_m=None if load.to_x_m is None else load.to_x_m * k)
-    if isinstance(load, AxleTrain):
-        return load
-    return load
+    return load  # axle trains (a vehicle does not scale), self-weight, fill, temperature, movements
 
 
 def case_at(case: Case, point: StudyPoint) -> Case:

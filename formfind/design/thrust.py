@@ -31,13 +31,12 @@ for every load state, zone fraction or live-load position.
 
 from __future__ import annotations
 
-import contextlib
-import os
 from dataclasses import dataclass
 
 import numpy as np
 
 from formfind.analysis.statics import CutResultants, cut_resultants, internal_forces
+from formfind.design.program import silent_stdout
 from formfind.enums import SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.geometry import Axis
@@ -99,23 +98,6 @@ def joint_forces(axis: Axis, loads: StationLoads, depth_m: np.ndarray,
     return JointForces(M, N, N_left, uM.T.copy(), uN.T.copy(), 0.5 * np.asarray(depth_m, dtype=float), hinges)
 
 
-@contextlib.contextmanager
-def _quiet_fd1():
-    """HiGHS may print its banner to file descriptor 1 whatever cvxpy asks; keep the terminal clean."""
-    try:
-        fd = os.dup(1)
-    except OSError:  # no stdout at all
-        yield
-        return
-    with open(os.devnull, "w") as null:
-        os.dup2(null.fileno(), 1)
-        try:
-            yield
-        finally:
-            os.dup2(fd, 1)
-            os.close(fd)
-
-
 class _ZoneProgram:
     """Feasibility of a thrust line within zone fraction s, re-solved with new loads or zones.
 
@@ -158,7 +140,7 @@ class _ZoneProgram:
 def _solve(problem) -> str:
     import cvxpy as cp
 
-    with _quiet_fd1():
+    with silent_stdout():
         try:
             problem.solve(solver=cp.HIGHS)
         except cp.SolverError:
