@@ -17,14 +17,45 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-from formfind.analysis.engine import CaseAnalysis, analyse
-from formfind.analysis.response import Response, summarise
-from formfind.design.check import CheckResult, check
-from formfind.design.shape import ShapeResult, find_shape
-from formfind.design.study import StudyRow, grid, run_study
-from formfind.errors import AnalysisError, CaseError, FormfindError, OutputError
-from formfind.model.case import Case, load_case, parse_case
-from formfind.model.geometry import Axis
+# Public names, imported on first use so that `import formfind` (and the command line's --version,
+# --help and validate) never loads the solvers, scipy.sparse or matplotlib.
+_PUBLIC = {
+    "CaseAnalysis": "formfind.analysis.engine",
+    "analyse": "formfind.analysis.engine",
+    "Response": "formfind.analysis.response",
+    "summarise": "formfind.analysis.response",
+    "CheckResult": "formfind.design.check",
+    "check": "formfind.design.check",
+    "ShapeResult": "formfind.design.shape",
+    "find_shape": "formfind.design.shape",
+    "StudyRow": "formfind.design.study",
+    "grid": "formfind.design.study",
+    "run_study": "formfind.design.study",
+    "AnalysisError": "formfind.errors",
+    "CaseError": "formfind.errors",
+    "FormfindError": "formfind.errors",
+    "OutputError": "formfind.errors",
+    "Case": "formfind.model.case",
+    "load_case": "formfind.model.case",
+    "parse_case": "formfind.model.case",
+    "Axis": "formfind.model.geometry",
+}
+
+
+def __getattr__(name: str):
+    module = _PUBLIC.get(name)
+    if module is None:
+        raise AttributeError(f"module 'formfind' has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_PUBLIC))
+
 
 __all__ = [
     "AnalysisError",
