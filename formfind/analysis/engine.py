@@ -44,13 +44,15 @@ class CaseAnalysis:
     frame: FrameModel | None
 
 
-def frame_model(case: Case, axis: Axis, section: SectionAlong) -> FrameModel:
-    """The frame model of ``axis`` with the case's supports (and crown hinge, if three-hinged)."""
+def frame_model(case: Case, axis: Axis, section: SectionAlong, estimate_condition: bool = True) -> FrameModel:
+    """The frame model of ``axis`` with the case's supports (and crown hinge, if three-hinged);
+    ``estimate_condition`` as in `build_frame`."""
     kind = case.supports.kind
     hinge = case.hinge_station(axis) if kind is SupportKind.THREE_HINGED else None
     if kind is SupportKind.TIED and case.tie_EA_kN is None:
         raise AnalysisError("a tied arch needs [supports] tie_area_m2 and tie_modulus_MPa")
-    return build_frame(axis, section, kind, hinge, case.tie_EA_kN, case.analysis.shear_deformation)
+    return build_frame(axis, section, kind, hinge, case.tie_EA_kN, case.analysis.shear_deformation,
+                       estimate_condition)
 
 
 def respond(
