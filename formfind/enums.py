@@ -90,11 +90,30 @@ class Objective(StrEnum):
 
 
 class Solver(StrEnum):
-    """Convex solver used through cvxpy."""
+    """The convex solver of form finding's programs, called directly (no modelling layer)."""
 
-    AUTO = "auto"  # Clarabel for sparse programs and QPs, HiGHS for the dense LPs of the sequential method
+    AUTO = "auto"  # HiGHS for programs re-solved step after step (warm starts), else Clarabel
     CLARABEL = "clarabel"  # interior point, LPs and QPs
-    HIGHS = "highs"  # simplex / interior point, LPs only (QPs of the final selection go to Clarabel)
+    HIGHS = "highs"  # simplex for LPs, active set for QPs
+
+
+class SolveStatus(StrEnum):
+    """How a convex solve ended."""
+
+    OPTIMAL = "optimal"
+    INACCURATE = "optimal_inaccurate"  # a solution to reduced accuracy
+    INFEASIBLE = "infeasible"
+    UNBOUNDED = "unbounded"
+    FAILED = "failed"  # a numerical failure or a limit reached without a solution
+
+
+class ShapeMethod(StrEnum):
+    """How form finding reached its axis (see `formfind.design.shape`)."""
+
+    PER_STATION = "per-station exact"  # the separable minimax, station by station
+    PROGRAM = "convex program"  # one exact convex program
+    FIXED_POINT = "fixed point on the loads"  # exact programs on the loads of the previous axis
+    SEQUENTIAL = "sequential convex (local)"  # trust-region sequential convex programming
 
 
 class DrawingUnit(StrEnum):

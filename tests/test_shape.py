@@ -1,5 +1,5 @@
-"""Form-finding machinery: the exact per-station method against the LP, the compiled program
-against the fresh build, the certificate, infeasibility messages, the command line."""
+"""Form-finding machinery: the exact per-station method against the LP, the structured program against
+a dense LP built independently, the certificate, infeasibility messages, the command line."""
 
 from __future__ import annotations
 
@@ -12,8 +12,9 @@ import scipy.sparse as sp
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from formfind.analysis.sensitivity import MomentModel
 from formfind.cli import run_cli
-from formfind.design.program import FormProgram, ProgramData, Structure, solve_program
+from formfind.design.program import ProgramData, Structure, solve_program
 from formfind.design.separable import per_station_minimax
 from formfind.design.shape import find_shape
 from formfind.enums import Objective, Solver
@@ -41,7 +42,9 @@ def test_per_station_method_equals_the_lp(seed, n, k):
     h = np.repeat(rng.uniform(20, 200, (k, 1)), n, axis=1)
     upper = np.full(n, 50.0)
     structure = _structure(n, k)
-    data = ProgramData(a=a, h=h, c=np.ones((k, n)), w=np.ones(n), g=np.zeros(2), q=(upper[1:-1],))
+    data = ProgramData(model=MomentModel.diagonal(np.arange(n, dtype=float), np.zeros(n), a, h), c=np.ones((k, n)),
+                       w=np.ones(n), g=np.zeros(2), q=(upper[1:-1],), lower=np.full(n, -np.inf),
+                       upper=np.full(n, np.inf))
     lp = solve_program(structure, data)
     lower, upper_b = np.full(n, -1e3), upper.copy()
     lower[[0, -1]] = upper_b[[0, -1]] = 0.0
@@ -53,18 +56,65 @@ def test_per_station_method_equals_the_lp(seed, n, k):
     assert lp.dual_bound == pytest.approx(lp.value, rel=3e-6, abs=1e-8)
 
 
-def test_compiled_program_resolves_like_a_fresh_build():
+@pytest.mark.parametrize("kind", ["two_hinged", "fixed", "three_hinged_free_rise"])
+def test_structured_program_equals_a_dense_lp_of_the_same_linearisation(kind):
+    """The program holds the linearised moments through running sums; the same minimax built with the
+    dense Jacobian (every dM_i/dy_j written out) and solved by scipy's linprog must give the same
+    optimum, to 1e-7 relative to the moments (both solvers' tolerances; an optimum may vanish)."""
+    from scipy.optimize import linprog
+
+    from formfind.design.constraints import build_limits
+    from formfind.design.governing import analyse_governing
+    from formfind.design.sequential import linearise, program_data
+
+    data = tomllib.loads(BASE_CASE)
+    if kind == "three_hinged_free_rise":
+        data["find"] = {"rise_min_m": 3.0, "rise_max_m": 5.0}
+    else:
+        data["supports"] = {"kind": kind}
+    data["stations"] = {"count": 25}
+    case = parse_case(data, "t.toml")
+    axis = case.axis()
+    response, loads, model = analyse_governing(case, axis, case.section)
+    moments = linearise(case, axis, case.section, response, loads, model)
+    limits = build_limits(case, axis.x, axis.y, loads.count)
+    prog = program_data(case, limits, axis, case.section, response, moments, 0.5)
+    ours = solve_program(limits.structure, prog, axis.y, select=False)
+    jac = moments.dense()
+    n, k = axis.count, loads.count
+    a0 = moments.M0 - np.einsum("kij,j->ki", jac, axis.y)
+    rows = jac.reshape(k * n, n)
+    ones = np.ones((k * n, 1))
+    blocks = [blk.toarray() for _, blk in limits.structure.blocks]
+    a_ub = np.vstack([np.hstack([rows, -ones]), np.hstack([-rows, -ones])]
+                     + [np.hstack([b, np.zeros((b.shape[0], 1))]) for b in blocks])
+    b_ub = np.concatenate([-a0.ravel(), a0.ravel()] + list(prog.q))
+    a_eq = np.hstack([limits.structure.equality.toarray(), np.zeros((limits.structure.equality.shape[0], 1))])
+    bounds = [(lo, up) for lo, up in zip(prog.lower, prog.upper, strict=True)] + [(None, None)]
+    cost = np.zeros(n + 1)
+    cost[-1] = 1.0
+    dense = linprog(cost, A_ub=a_ub, b_ub=b_ub, A_eq=a_eq, b_eq=limits.g, bounds=bounds, method="highs")
+    assert dense.status == 0
+    scale = float(np.abs(moments.M0).max())
+    assert ours.value == pytest.approx(dense.fun, rel=1e-7, abs=1e-7 * scale)
+    assert ours.dual_bound == pytest.approx(dense.fun, rel=1e-5, abs=1e-7 * scale)  # the tie-break costs it a little
+
+
+def test_highs_and_clarabel_agree_on_a_program_and_its_certificate():
     rng = np.random.default_rng(3)
     n, k = 40, 5
-    structure = _structure(n, k)
-    program = FormProgram(structure)
-    for _ in range(3):
-        a = rng.normal(0, 50, (k, n))
-        h = np.repeat(rng.uniform(50, 150, (k, 1)), n, axis=1)
-        data = ProgramData(a=a, h=h, c=np.ones((k, n)), w=np.ones(n), g=np.zeros(2), q=(np.full(n - 2, 10.0),))
-        compiled, fresh = program.solve(data), solve_program(structure, data, select=False)
-        assert compiled.value == pytest.approx(fresh.value, rel=1e-6)
-        assert compiled.dual_bound == pytest.approx(fresh.dual_bound, rel=1e-5)
+    a = rng.normal(0, 50, (k, n))
+    h = np.repeat(rng.uniform(50, 150, (k, 1)), n, axis=1)
+    values = []
+    for solver in (Solver.HIGHS, Solver.CLARABEL):
+        structure = _structure(n, k, solver=solver)
+        data = ProgramData(model=MomentModel.diagonal(np.arange(n, dtype=float), np.zeros(n), a, h),
+                           c=np.ones((k, n)), w=np.ones(n), g=np.zeros(2), q=(np.full(n - 2, 10.0),),
+                           lower=np.full(n, -np.inf), upper=np.full(n, np.inf))
+        sol = solve_program(structure, data, select=False)
+        values.append((sol.value, sol.dual_bound))
+    assert values[0][0] == pytest.approx(values[1][0], rel=1e-6)
+    assert values[0][1] == pytest.approx(values[1][1], rel=1e-5)
 
 
 def _case(find):

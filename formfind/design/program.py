@@ -1,14 +1,12 @@
-"""The convex program of form finding, built once with cvxpy and re-solved with new data.
+"""The convex program of form finding, assembled as sparse arrays and solved directly.
 
-Variables: the ordinates y (m) at the stations, and for the epigraph objectives one scalar s. The
-moments of the governing states are affine in y:
-
-    M[k, i] = a[k, i] - h[k, i] y[i]         (kN m; h the horizontal resultant left of the
-                                              station, kN: the thrust H for vertical loads)
-
-(exact for a three-hinged arch with fixed springings and hinge under loads of fixed magnitude), or
-in general M[k, i] = a[k, i] + sum_j J[k, i, j] y[j] with J the Jacobian of the exact engine (the
-sequential step of `formfind.design.shape`).
+Variables: the ordinates y (m) at the stations and, for the epigraph objectives, one scalar s. The
+moments of the governing states are affine in y through a `MomentModel`
+(`formfind.analysis.sensitivity`): exactly M = M0 - h (y - y0) for a three-hinged arch with its hinge
+held under loads of fixed magnitude, and the exact engine's linearisation otherwise (the sequential
+step of `formfind.design.sequential`). The linearisation enters through running-sum variables (the
+change of the loads' running force and moment at every cut, and of the left reaction, per state),
+so the program has O(states x stations) non-zeros, never a dense Jacobian.
 
 Objectives:
 
@@ -18,61 +16,50 @@ Objectives:
         min_depth c = beta |N[k, i]| / 2  s = rib depth (m): |M / N| <= beta depth / 2
     rms:  minimise sum_k sum_i w[i] M[k, i]^2   (w: tributary length along the axis, m)
 
-and linear constraints on y: equalities E y = g (springings, hinge, symmetry) and named blocks of
-inequalities G y <= q (rise, clearance, site envelope, slope, curvature, step limit).
+and linear constraints on y: equalities E y = g (springings, hinge, symmetry), named blocks of
+inequalities G y <= q (rise, clearance, site envelope, slope, curvature) and bounds on y (the trust
+region of the sequential method).
 
-The dual bound is computed from the constraint multipliers as the Lagrangian dual function, with its
+Epigraph programs are solved by constraint generation: from the few states extreme at each station
+at the start, adding every (state, station) row the solution violates until none is (the optimum is
+that of the full program; rows never added have zero multipliers). A tie-break of weight 1e-6 also
+minimises each station's own peak, so stations that do not govern take definite values. The dual
+bound is the Lagrangian dual value of the program without the tie-break at the solver's multipliers
+(rescaled to meet the stationarity in s exactly, which keeps them dual feasible), with its
 stationarity residual: a certificate that no admissible axis does better than the bound, to within
-the residual.
-
-Two ways to solve. `solve_program` builds the problem with constant data and, for the epigraph
-objectives, generates constraints: it starts from the few states that are extreme at each station,
-solves, adds every (state, station) row the solution violates, and repeats until none is violated.
-The optimum is that of the full program, and the multipliers (zero on rows never added) remain a
-valid dual certificate for it. A tie-break of weight 1e-6 also minimises each station's own peak,
-so stations that do not govern take definite values (the certificate's normalisation divides the
-bound by 1 + 1e-6 accordingly, which keeps it a valid lower bound). Where the optimum is still not
-unique, a second stage picks, among the axes within 1e-7 of the optimum, the smoothest (least integral of the
-squared second derivative): a definite answer, and the shape a designer would draw. `FormProgram` compiles the full program once with cvxpy Parameters
-(DPP) so that a study re-solves without recompiling; its compilation grows with states x stations
-and suits modest sizes.
+the residual. Where the optimum is still not unique, a second stage picks, among the axes within
+``SELECT_SLACK`` of the optimum, the smoothest (least integral of the squared second derivative).
 """
 
 from __future__ import annotations
 
-import contextlib
-import os
-import sys
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
+from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
 
-from formfind.enums import Objective, Solver
+from formfind.analysis.sensitivity import FX, FY, MO, MomentModel
+from formfind.design.convex import ConvexProblem, ConvexSolution, solve_convex
+from formfind.enums import Objective, Solver, SolveStatus
 
-SOLVER_NAMES = {Solver.CLARABEL: "CLARABEL", Solver.HIGHS: "HIGHS", Solver.AUTO: "CLARABEL"}
-
-
-def solver_for(structure: Structure, dense: bool) -> str:
-    """The cvxpy solver name for a program: the user's choice, or the rule of ``auto``."""
-    if structure.solver is Solver.AUTO:
-        return "HIGHS" if dense and structure.objective is not Objective.RMS else "CLARABEL"
-    if structure.solver is Solver.HIGHS and structure.objective is Objective.RMS:
-        return "CLARABEL"  # a QP: HiGHS through cvxpy takes LPs
-    return SOLVER_NAMES[structure.solver]
+INITIAL_STATES = 2  # per station and side, the most extreme states start the constraint generation
+SELECT_SLACK = 1e-7  # stage two may give up this fraction of the optimum to pick the smoothest axis
+TIE_BREAK = 1e-6  # weight of the per-station peaks against the governing peak (lexicographic tie-break)
+MAX_ROUNDS = 50
 
 
 @dataclass(frozen=True)
 class Structure:
-    """What fixes a program's shape: sizes and constraint matrices (data go in as parameters).
+    """What fixes a program's shape: sizes and constraint matrices.
 
     Attributes:
         objective: the objective.
         stations, states: n and K.
         equality: E (rows, n) sparse.
         blocks: named inequality blocks, each (name, G (rows, n) sparse).
-        solver: the cvxpy solver.
+        solver: the solver (`Solver.AUTO`: HiGHS for LPs, Clarabel for QPs).
     """
 
     objective: Objective
@@ -82,55 +69,38 @@ class Structure:
     blocks: tuple[tuple[str, sp.csr_matrix], ...]
     solver: Solver
 
+    @cached_property
+    def stacked_blocks(self) -> sp.csr_matrix:
+        """Every inequality block, one under the other (rows, n)."""
+        if not self.blocks:
+            return sp.csr_matrix((0, self.stations))
+        return sp.vstack([block for _, block in self.blocks], format="csr")
+
 
 @dataclass(frozen=True, eq=False)
 class ProgramData:
     """The numbers of one solve.
 
     Attributes:
-        a: (K, n) moments at y = 0 of the affine model, kNm.
-        h: (K, n) frozen horizontal resultant left of each station, kN (the thrust H for vertical loads).
+        model: the moments of the K governing states as affine functions of y.
         c: (K, n) epigraph weights (see the module docstring); ignored for rms.
         w: (n,) rms weights (tributary lengths, m); ignored otherwise.
         g: equality right-hand side (rows,).
         q: one right-hand side per inequality block.
-        jac: (K, n, n) Jacobian dM/dy, kN; when given, M = a + J y and ``h`` only weights ``offset``.
-        x: station abscissae (n,), m, for the smoothness measure of the final selection.
+        lower, upper: (n,) bounds on y, m (-inf / inf where there are none).
     """
 
-    a: np.ndarray
-    h: np.ndarray
+    model: MomentModel
     c: np.ndarray
     w: np.ndarray
     g: np.ndarray
     q: tuple[np.ndarray, ...]
-    jac: np.ndarray | None = None
-    x: np.ndarray | None = None
+    lower: np.ndarray
+    upper: np.ndarray
 
     def moments(self, y: np.ndarray) -> np.ndarray:
         """M (K, n) of the linear model at ordinates y."""
-        if self.jac is not None:
-            return self.a + np.einsum("kij,j->ki", self.jac, y)
-        return self.a - self.h * y[None, :]
-
-    def rows(self, kk: np.ndarray, ii: np.ndarray) -> sp.csr_matrix:
-        """dM/dy of the selected (state, station) entries as sparse rows (entries, n)."""
-        n = self.a.shape[1]
-        if self.jac is not None:
-            return sp.csr_matrix(self.jac[kk, ii, :])
-        return sp.csr_matrix((-self.h[kk, ii], (np.arange(kk.size), ii)), shape=(kk.size, n))
-
-    def gradient(self, coeff: np.ndarray) -> np.ndarray:
-        """sum over (k, i) of coeff[k, i] dM[k, i]/dy, shape (n,)."""
-        if self.jac is not None:
-            return np.einsum("kij,ki->j", self.jac, coeff)
-        return -np.sum(self.h * coeff, axis=0)
-
-    def gradient_scale(self, coeff: np.ndarray) -> float:
-        """A scale for `gradient`: its value with absolute sensitivities and coefficients."""
-        if self.jac is not None:
-            return float(np.abs(np.einsum("kij,ki->j", np.abs(self.jac), np.abs(coeff))).max())
-        return float(np.abs(np.sum(np.abs(self.h) * np.abs(coeff), axis=0)).max())
+        return self.model.moments(y)
 
 
 @dataclass(frozen=True, eq=False)
@@ -138,19 +108,22 @@ class ProgramSolution:
     """The result of one solve.
 
     Attributes:
-        status: the solver's status ("optimal", "optimal_inaccurate", "infeasible", ...).
+        status: how the (last) solve ended.
         y: ordinates (n,), m; None unless a solution is present.
-        value: the objective value (kNm, m or kNm2 for the rms sum) or None.
+        value: the objective value (kNm, m, or kNm2 m for the rms sum) or None.
         dual_bound: the Lagrangian dual value, same unit; None if unavailable.
         stationarity: residual of the dual's stationarity conditions (relative).
-        epigraph_duals: (2, K, n) multipliers of the upper and lower epigraph constraints.
+        epigraph_duals: (2, K, n) multipliers of the upper and lower epigraph rows (rescaled).
         block_duals: one multiplier array per inequality block.
         block_slacks: one slack array (q - G y) per inequality block.
-        solve_time_s: wall time of the solve (compilation included on the first solve), s.
+        bound_duals: (n,) multipliers of the bounds on y (upper minus lower).
+        solve_time_s: wall time of the solves, s.
         solver: the solver's name.
+        rows_used: epigraph rows in the last program.
+        basis: the LP solver's final basis, to warm-start a program of the same shape (opaque).
     """
 
-    status: str
+    status: SolveStatus
     y: np.ndarray | None
     value: float | None
     dual_bound: float | None
@@ -158,116 +131,242 @@ class ProgramSolution:
     epigraph_duals: np.ndarray | None
     block_duals: tuple[np.ndarray, ...]
     block_slacks: tuple[np.ndarray, ...]
+    bound_duals: np.ndarray | None
     solve_time_s: float
     solver: str
     rows_used: int = field(default=0)
+    basis: object | None = None
 
 
-
-def _dual_certificate(structure: Structure, data: ProgramData, y: np.ndarray, lam_up: np.ndarray, lam_lo: np.ndarray,
-                      nu: np.ndarray, block_duals: tuple[np.ndarray, ...]) -> tuple[float, float, np.ndarray]:
-    """Lagrangian dual value and stationarity residual of the epigraph program (full-size multipliers)."""
-    n, k = structure.stations, structure.states
-    a = np.ascontiguousarray(data.a, dtype=float).ravel()
-    c = np.maximum(np.ascontiguousarray(data.c, dtype=float).ravel(), 0.0)
-    lam_up = np.maximum(lam_up, 0.0)
-    lam_lo = np.maximum(lam_lo, 0.0)
-    # stationarity in s asks sum c (lam_up + lam_lo) = 1 (min_depth: <= 1, s >= 0 takes the rest);
-    # rescaling all multipliers to meet it exactly keeps them dual feasible
-    total = float(np.dot(c, lam_up + lam_lo))
-    factor = 1.0 / total if total > 0 and (structure.objective is not Objective.MIN_DEPTH or total > 1.0) else 1.0
-    lam_up, lam_lo, nu = lam_up * factor, lam_lo * factor, nu * factor
-    lin = np.zeros(n)
-    const = 0.0
-    for (_, block), mu, q in zip(structure.blocks, block_duals, data.q, strict=True):
-        lin += block.T @ (mu * factor)
-        const -= float(np.dot(mu * factor, q))
-    if nu.size:
-        lin += structure.equality.T @ nu
-        const -= float(np.dot(nu, data.g))
-    diff = (lam_up - lam_lo).reshape(k, n)
-    bound = float(np.sum(diff.ravel() * a)) + const
-    grad_y = data.gradient(diff) + lin
-    scale = max(data.gradient_scale((lam_up + lam_lo).reshape(k, n)), 1e-300)
-    return bound, float(np.abs(grad_y).max()) / scale, np.stack([lam_up.reshape(k, n), lam_lo.reshape(k, n)])
+def _failed(status: SolveStatus, elapsed: float, solver: str) -> ProgramSolution:
+    return ProgramSolution(status, None, None, None, float("nan"), None, (), (), None, elapsed, solver)
 
 
-def _rms_certificate(structure: Structure, data: ProgramData, y: np.ndarray,
-                     block_duals: tuple[np.ndarray, ...], nu: np.ndarray) -> tuple[float, float]:
-    n = structure.stations
-    w = np.asarray(data.w, dtype=float)[None, :]
-    m = data.moments(y)
-    lin = np.zeros(n)
-    for (_, block), mu in zip(structure.blocks, block_duals, strict=True):
-        lin += block.T @ mu
-    if nu.size:
-        lin += structure.equality.T @ nu
-    grad = data.gradient(2.0 * w * m) + lin
-    value = float(np.sum(w * m**2))
-    bound = value + sum(float(np.dot(mu, blk @ y - q)) for (_, blk), mu, q in
-                        zip(structure.blocks, block_duals, data.q, strict=True))
-    scale = max(data.gradient_scale(2.0 * w * m), 1e-300)
-    return bound, float(np.abs(grad).max() / scale)
+# ------------------------------------------------------------------------------ the moment rows
+@dataclass(frozen=True, eq=False)
+class _Layout:
+    """Where the variables sit: y first, then the objective's own, then each listed state's running
+    sums (one block of n - 1 per changing component) and reaction changes (3).
+
+    ``first[k, c]`` is the column of state k's running sum of component c at cut 1 (cut 0 has none),
+    ``first[k, 3]`` that of its reaction change Rx (Ry and ML follow); -1 where a state has none."""
+
+    n: int
+    own: int
+    states: np.ndarray
+    components: np.ndarray  # (K, 3) which running sums each state needs
+    with_reaction: bool
+    first: np.ndarray  # (K, 4) int
+    size: int
 
 
-INITIAL_STATES = 2  # per station and side, the most extreme states start the constraint generation
-SELECT_SLACK = 1e-7  # stage two may give up this fraction of the optimum to pick the smoothest axis
-TIE_BREAK = 1e-6  # weight of the per-station peaks against the governing peak (lexicographic tie-break)
-MAX_ROUNDS = 50
+def _layout(model: MomentModel, states: np.ndarray, own: int) -> _Layout:
+    components = model.step_components
+    twins = model.step_twins
+    with_reaction = model.reaction is not None
+    n = model.stations
+    first = -np.ones((model.states, 4), dtype=int)
+    position = n + own
+    for k in np.asarray(states, dtype=int):
+        twin = int(twins[k])
+        for comp in range(3):
+            if not components[k, comp]:
+                continue
+            if first[twin, comp] < 0:  # the first of its twins to be listed owns the running sums
+                first[twin, comp] = position
+                position += n - 1
+            first[k, comp] = first[twin, comp]
+        if with_reaction:
+            first[k, 3] = position
+            position += 3
+    return _Layout(n, own, np.asarray(states, dtype=int), components, with_reaction, first, position)
 
 
-def _second_differences(x: np.ndarray) -> sp.csr_matrix:
-    """d2y/dx2 at the interior stations as a sparse (n - 2, n) matrix (1/m)."""
-    h0, h1 = np.diff(x)[:-1], np.diff(x)[1:]
-    mean = 0.5 * (h0 + h1)
-    n = x.size
-    return sp.diags([1 / (h0 * mean), -(1 / h0 + 1 / h1) / mean, 1 / (h1 * mean)], [0, 1, 2], shape=(n - 2, n)).tocsr()
+def _aux_equalities(model: MomentModel, layout: _Layout) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Rows defining each listed state's auxiliary variables from y: V_1 = rate_0 (y - y0) and
+    V_(i+1) - V_i = rate_i (y - y0) for every running sum, R = reaction rate (y - y0)."""
+    n = model.stations
+    e_count = n - 1
+    size = layout.size
+    states = layout.states
+    rows_parts: list[np.ndarray] = []
+    cols_parts: list[np.ndarray] = []
+    vals_parts: list[np.ndarray] = []
+    rhs_parts: list[np.ndarray] = []
+    count = 0
+    pairs: list[tuple[int, int]] = []  # (state, component) of each running sum, twins' shared sums once
+    defined: set[int] = set()
+    for k in states:
+        for comp in (FX, FY, MO):
+            column = int(layout.first[k, comp])
+            if layout.components[k, comp] and column not in defined:
+                defined.add(column)
+                pairs.append((int(k), comp))
+    if pairs:
+        kk = np.array([k for k, _ in pairs])
+        cc = np.array([c for _, c in pairs])
+        step_rows = ((kk[:, None] * e_count + np.arange(e_count)[None, :]) * 3 + cc[:, None]).ravel()
+        rate = model.steps[step_rows].tocoo()  # (pairs x E, n)
+        rows_parts.append(rate.row)
+        cols_parts.append(rate.col)
+        vals_parts.append(-rate.data)
+        first = layout.first[kk, cc]  # (pairs,)
+        own = (first[:, None] + np.arange(e_count)[None, :]).ravel()
+        rows_parts.append(np.arange(own.size))
+        cols_parts.append(own)
+        vals_parts.append(np.ones(own.size))
+        previous = np.tile(np.arange(e_count) >= 1, len(pairs))
+        rows_parts.append(np.flatnonzero(previous))
+        cols_parts.append(own[previous] - 1)
+        vals_parts.append(-np.ones(int(previous.sum())))
+        rhs_parts.append(-(model.steps[step_rows] @ model.y0))
+        count = own.size
+    if layout.with_reaction and states.size:
+        rate = model.reaction[states].reshape(-1, n)  # (states x 3, n)
+        r = count + np.arange(rate.shape[0])
+        rows_parts.append(np.repeat(r, n))
+        cols_parts.append(np.tile(np.arange(n), rate.shape[0]))
+        vals_parts.append(-rate.ravel())
+        rows_parts.append(r)
+        cols_parts.append((layout.first[states, 3][:, None] + np.arange(3)[None, :]).ravel())
+        vals_parts.append(np.ones(r.size))
+        rhs_parts.append(-(rate @ model.y0))
+        count += r.size
+    if not count:
+        return sp.csr_matrix((0, size)), np.zeros(0)
+    matrix = sp.csr_matrix((np.concatenate(vals_parts), (np.concatenate(rows_parts), np.concatenate(cols_parts))),
+                           shape=(count, size))
+    return matrix, np.concatenate(rhs_parts)
 
 
+def _moment_rows(model: MomentModel, layout: _Layout, kk: np.ndarray, ii: np.ndarray) -> tuple[sp.csr_matrix, np.ndarray]:
+    """M[kk, ii] = const + rows @ z for the selected (state, station) pairs (module docstring)."""
+    m = kk.size
+    x, y0 = model.x, model.y0
+    r_idx = [np.arange(m)]
+    c_idx = [ii]
+    vals = [-model.sx[kk, ii]]
+    const = model.M0[kk, ii] + model.sx[kk, ii] * y0[ii]
+    inner = ii >= 1
+    for comp, factor in ((FX, -y0), (FY, x), (MO, -np.ones_like(x))):
+        use = inner & layout.components[kk, comp]
+        if not use.any():
+            continue
+        cols = layout.first[kk[use], comp] + ii[use] - 1
+        r_idx.append(np.flatnonzero(use))
+        c_idx.append(cols)
+        vals.append(factor[ii[use]])
+    if layout.with_reaction:
+        first = layout.first[kk, 3]
+        lever = ((-(y0[ii] - y0[0])), (x[ii] - x[0]), -np.ones(m))
+        for comp in range(3):
+            r_idx.append(np.arange(m))
+            c_idx.append(first + comp)
+            vals.append(lever[comp])
+    rows = sp.csr_matrix((np.concatenate(vals), (np.concatenate(r_idx), np.concatenate(c_idx))), shape=(m, layout.size))
+    return rows, const
+
+
+def _pad(matrix: sp.spmatrix, size: int) -> sp.csr_matrix:
+    """A matrix over y, widened with zero columns to ``size`` variables (no copy of its entries)."""
+    matrix = sp.csr_matrix(matrix)
+    return sp.csr_matrix((matrix.data, matrix.indices, matrix.indptr), shape=(matrix.shape[0], size))
+
+
+# ------------------------------------------------------------------------------------- solving
 def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | None = None,
-                  select: bool = True) -> ProgramSolution:
-    """Solve with constant data; epigraph objectives by constraint generation (module docstring).
+                  select: bool = True, warm: object | None = None, resolving: bool = False) -> ProgramSolution:
+    """Solve the program; epigraph objectives by constraint generation (module docstring).
 
     ``start`` (n,) is the current axis, used to pick the first rows. With ``select``, a second stage
-    returns, among the axes within 1e-7 of the optimum, the smoothest (least sum of (d2y/dx2)^2):
-    unique with the springings fixed. Never raises for an infeasible or failed solve: the status
-    says so.
+    returns, among the axes within ``SELECT_SLACK`` of the optimum, the smoothest (least sum of
+    (d2y/dx2)^2). ``warm`` is the ``basis`` of an earlier solution (used where the shapes match).
+    With the solver ``auto``, a one-off program goes to Clarabel (interior point: the faster cold
+    start, measured in benchmarks/bench_shape.py) and a program that will be re-solved with new
+    numbers (``resolving``, the sequential method's steps) to HiGHS, whose basis warm-starts the next.
+    Never raises for an infeasible or failed solve: the status says so.
     """
-    import cvxpy as cp  # imported here: cvxpy takes about a second to import
-
-    n, k = structure.stations, structure.states
-    solver = solver_for(structure, data.jac is not None)
-    a = np.ascontiguousarray(data.a, dtype=float)
-    started = time.perf_counter()
-    y = cp.Variable(n)
-    cons = []
-    eq = None
-    if structure.equality.shape[0]:
-        eq = structure.equality @ y == data.g
-        cons.append(eq)
-    ineq = [block @ y <= q for (_, block), q in zip(structure.blocks, data.q, strict=True)]
-    cons += ineq
     if structure.objective is Objective.RMS:
-        w = np.tile(np.sqrt(np.asarray(data.w, dtype=float)), k)
-        # sum_k sum_i w_i M_ki^2 as a sum of squares of one sparse affine map
-        kk_all, ii_all = np.divmod(np.arange(k * n), n)
-        lin = sp.diags(w) @ data.rows(kk_all, ii_all)
-        problem = cp.Problem(cp.Minimize(cp.sum_squares(w * a.ravel() + lin @ y)), cons)
-        status = _run(problem, solver)
-        elapsed = time.perf_counter() - started
-        if y.value is None or status not in ("optimal", "optimal_inaccurate"):
-            return ProgramSolution(status, None, None, None, float("nan"), None, (), (), elapsed, solver)
-        yv = _snap(structure, data, np.array(y.value, dtype=float))
-        duals = tuple(np.asarray(c.dual_value, dtype=float) for c in ineq)
-        nu = np.zeros(0) if eq is None else np.asarray(eq.dual_value, dtype=float).ravel()
-        bound, stationarity = _rms_certificate(structure, data, yv, duals, nu)
-        slacks = tuple(np.asarray(q) - blk @ yv for (_, blk), q in zip(structure.blocks, data.q, strict=True))
-        return ProgramSolution(status, yv, float(problem.value), bound, stationarity, None, duals, slacks,
-                               elapsed, solver, k * n)
+        return _solve_rms(structure, data)
+    if structure.solver is Solver.AUTO:
+        structure = replace(structure, solver=Solver.HIGHS if resolving or warm is not None else Solver.CLARABEL)
+    return _solve_epigraph(structure, data, start, select, warm)
 
-    c = np.maximum(np.ascontiguousarray(data.c, dtype=float), 0.0)
-    y0 = np.zeros(n) if start is None else np.asarray(start, dtype=float)
-    m0 = data.moments(y0)
+
+def _common_rows(structure: Structure, data: ProgramData, size: int):
+    """Equalities E y = g and the inequality blocks G y <= q, widened to ``size`` variables."""
+    eq = _pad(structure.equality, size) if structure.equality.shape[0] else sp.csr_matrix((0, size))
+    ub = _pad(structure.stacked_blocks, size)
+    q = np.concatenate(data.q) if data.q else np.zeros(0)
+    return eq, np.asarray(data.g, dtype=float), ub, q
+
+
+def _bounds(data: ProgramData, size: int) -> tuple[np.ndarray, np.ndarray]:
+    lower = np.full(size, -np.inf)
+    upper = np.full(size, np.inf)
+    n = data.model.stations
+    lower[:n] = data.lower
+    upper[:n] = data.upper
+    return lower, upper
+
+
+def _epigraph_problem(structure: Structure, data: ProgramData, kk: np.ndarray, ii: np.ndarray,
+                      tie_break: bool) -> tuple[ConvexProblem, _Layout, dict[str, slice]]:
+    """The epigraph LP on the selected rows: with the per-station tie-break (variables u), or the plain
+    program of the certificate (moment rows bounded by c s directly)."""
+    model = data.model
+    n = model.stations
+    own = 1 + (n if tie_break else 0)
+    layout = _layout(model, np.unique(kk), own)
+    size = layout.size
+    eq, g, blocks, q = _common_rows(structure, data, size)
+    aux, aux_rhs = _aux_equalities(model, layout)
+    rows, const = _moment_rows(model, layout, kk, ii)
+    c = np.maximum(np.asarray(data.c, dtype=float)[kk, ii], 0.0)
+    m = kk.size
+    bound_col = (n + 1 + ii) if tie_break else np.full(m, n)
+    bound = sp.csr_matrix((c, (np.arange(m), bound_col)), shape=(m, size))
+    parts = [blocks, rows - bound, -rows - bound]
+    rhs = [q, -const, const]
+    if tie_break:
+        peak = sp.csr_matrix((np.concatenate([np.ones(n), -np.ones(n)]),
+                              (np.concatenate([np.arange(n)] * 2), np.concatenate([n + 1 + np.arange(n), np.full(n, n)]))),
+                             shape=(n, size))  # u_i - s <= 0
+        parts.append(peak)
+        rhs.append(np.zeros(n))
+    A_ub = sp.vstack(parts, format="csr")
+    b_ub = np.concatenate(rhs)
+    A_eq = sp.vstack([eq, aux], format="csr")
+    b_eq = np.concatenate([g, aux_rhs])
+    cost = np.zeros(size)
+    cost[n] = 1.0
+    if tie_break:
+        tributary = np.zeros(n)
+        tributary[:-1] += 0.5 * np.diff(model.x)
+        tributary[1:] += 0.5 * np.diff(model.x)
+        cost[n + 1:n + 1 + n] = TIE_BREAK * tributary / tributary.sum()
+    lower, upper = _bounds(data, size)
+    if structure.objective is Objective.MIN_DEPTH:
+        lower[n] = 0.0
+    where = {"blocks": slice(0, q.size), "up": slice(q.size, q.size + m), "lo": slice(q.size + m, q.size + 2 * m)}
+    return ConvexProblem(cost, A_ub, b_ub, A_eq, b_eq, lower, upper), layout, where
+
+
+def _block_split(structure: Structure, values: np.ndarray) -> tuple[np.ndarray, ...]:
+    out = []
+    start = 0
+    for _, block in structure.blocks:
+        out.append(values[start:start + block.shape[0]])
+        start += block.shape[0]
+    return tuple(out)
+
+
+def _initial_rows(data: ProgramData, start: np.ndarray | None) -> np.ndarray:
+    model = data.model
+    k, n = model.states, model.stations
+    c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
+    y0 = model.y0 if start is None else np.asarray(start, dtype=float)
+    m0 = model.moments(y0)
     ratio = np.where(c > 0, m0 / np.where(c > 0, c, 1.0), m0 * 1e12)
     take = min(INITIAL_STATES, k)
     order = np.argsort(ratio, axis=0)
@@ -276,198 +375,165 @@ def solve_program(structure: Structure, data: ProgramData, start: np.ndarray | N
     for j in range(take):
         chosen[order[j], cols] = True  # most negative
         chosen[order[k - 1 - j], cols] = True  # most positive
-    s = cp.Variable()
-    # per-station peaks u_i <= s with a tiny weight: a lexicographic tie-break that also minimises
-    # every station's own peak, so stations that do not govern take definite values (no zigzag)
-    u = cp.Variable(n)
-    x_st = np.arange(n, dtype=float) if data.x is None else np.asarray(data.x, dtype=float)
-    tributary = np.zeros(n)
-    tributary[:-1] += 0.5 * np.diff(x_st)
-    tributary[1:] += 0.5 * np.diff(x_st)
-    tie_break = TIE_BREAK * tributary / tributary.sum()
-    status = "not solved"
-    yv = None
+    return chosen
+
+
+def _solve_epigraph(structure: Structure, data: ProgramData, start: np.ndarray | None, select: bool,
+                    warm: object | None) -> ProgramSolution:
+    model = data.model
+    k, n = model.states, model.stations
+    started = time.perf_counter()
+    c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
+    chosen = _initial_rows(data, start)
+    solution: ConvexSolution | None = None
+    problem = layout = where = None
     for _ in range(MAX_ROUNDS):
         kk, ii = np.nonzero(chosen)
-        moments = a[kk, ii] + data.rows(kk, ii) @ y
-        bound_rows = cp.multiply(c[kk, ii], u[ii])
-        up = moments <= bound_rows
-        lo = -moments <= bound_rows
-        extra = [u <= s] + ([s >= 0] if structure.objective is Objective.MIN_DEPTH else [])
-        problem = cp.Problem(cp.Minimize(s + tie_break @ u), cons + [up, lo] + extra)
-        status = _run(problem, solver)
-        if y.value is None or status not in ("optimal", "optimal_inaccurate"):
-            return ProgramSolution(status, None, None, None, float("nan"), None, (), (),
-                                   time.perf_counter() - started, solver)
-        yv = np.array(y.value, dtype=float)
-        sv = float(s.value)
-        uv = np.array(u.value, dtype=float)
-        m = data.moments(yv)
-        limit = c * np.minimum(uv, sv)[None, :]
-        tol = 1e-9 * max(abs(sv) * max(float(c.max()), 1e-300), float(np.abs(m).max()), 1e-12)
+        problem, layout, where = _epigraph_problem(structure, data, kk, ii, tie_break=True)
+        solution = solve_convex(problem, structure.solver, warm)
+        if not solution.solved:
+            return _failed(solution.status, time.perf_counter() - started, solution.solver)
+        warm = solution.basis
+        y = solution.z[:n]
+        s = solution.z[n]
+        u = solution.z[n + 1:2 * n + 1]
+        m = model.moments(y)
+        limit = c * np.minimum(u, s)[None, :]
+        tol = 1e-9 * max(abs(s) * max(float(c.max()), 1e-300), float(np.abs(m).max()), 1e-12)
         violated = (np.abs(m) > limit + tol) & ~chosen
         if not violated.any():
             break
         chosen |= violated
-    lam_up = np.zeros((k, n))
-    lam_lo = np.zeros((k, n))
-    lam_up[kk, ii] = np.asarray(up.dual_value, dtype=float)
-    lam_lo[kk, ii] = np.asarray(lo.dual_value, dtype=float)
-    duals = tuple(np.asarray(cn.dual_value, dtype=float) for cn in ineq)
-    nu = np.zeros(0) if eq is None else np.asarray(eq.dual_value, dtype=float).ravel()
-    bound, stationarity, epi = _dual_certificate(structure, data, yv, lam_up.ravel(), lam_lo.ravel(), nu, duals)
-    best = float(s.value)
-    # stage two: among the optimal axes, the smoothest (a definite answer where the optimum is not
-    # unique); the certificate stays that of stage one
-    limit_s = best + SELECT_SLACK * max(abs(best), 1e-12)
-    x = np.arange(n, dtype=float) if data.x is None else np.asarray(data.x, dtype=float)
-    curvature = _second_differences(x)
-    for _ in range(MAX_ROUNDS if select else 0):
-        kk, ii = np.nonzero(chosen)
-        moments = a[kk, ii] + data.rows(kk, ii) @ y
-        bound_rows = c[kk, ii] * limit_s
-        smooth = cp.Problem(cp.Minimize(cp.sum_squares(curvature @ y)), cons + [cp.abs(moments) <= bound_rows])
-        if _run(smooth, "CLARABEL") not in ("optimal", "optimal_inaccurate") or y.value is None:
-            break  # keep the stage-one axis
-        candidate = np.array(y.value, dtype=float)
-        m = data.moments(candidate)
-        violated = (np.abs(m) > c * limit_s * (1 + 1e-9) + 1e-12) & ~chosen
-        if not violated.any():
-            yv = candidate
-            break
-        chosen |= violated
+    kk, ii = np.nonzero(chosen)
+    best = float(solution.z[n])
+    y = solution.z[:n].copy()
+    # the certificate: the program without the tie-break (moment rows bounded by c s) at the same
+    # multipliers, rescaled to meet its stationarity in s; its rows and right-hand sides are those of
+    # the solved program but for the per-station rows u_i <= s, which only touch u and s
+    lam_up = solution.mu[where["up"]]
+    lam_lo = solution.mu[where["lo"]]
+    weight = float(np.dot(c[kk, ii], lam_up + lam_lo))
+    factor = 1.0 / weight if weight > 0 and (structure.objective is not Objective.MIN_DEPTH or weight > 1.0) else 1.0
+    block_mu = solution.mu[where["blocks"]]
+    rows_mu = solution.mu[:where["lo"].stop] * factor
+    nu = solution.nu * factor
+    zeta_lo = solution.zeta_lo * factor
+    zeta_up = solution.zeta_up * factor
+    columns = np.r_[0:n, 2 * n + 1:problem.size]  # y and the auxiliary variables
+    a_rows = problem.A_ub[:where["lo"].stop]
+    reduced = (a_rows.T @ rows_mu + problem.A_eq.T @ nu - zeta_lo + zeta_up)[columns]
+    terms = np.maximum.reduce([np.abs(a_rows.T @ rows_mu), np.abs(problem.A_eq.T @ nu), zeta_lo, zeta_up])[columns]
+    stationarity = float(np.abs(reduced).max() / max(float(terms.max()), 1e-300))
+    finite_lo = np.isfinite(problem.lower[:n])
+    finite_up = np.isfinite(problem.upper[:n])
+    bound = (-float(rows_mu @ problem.b_ub[:where["lo"].stop]) - float(nu @ problem.b_eq)
+             + float(zeta_lo[:n][finite_lo] @ problem.lower[:n][finite_lo])
+             - float(zeta_up[:n][finite_up] @ problem.upper[:n][finite_up]))
+    epigraph = np.zeros((2, k, n))
+    epigraph[0, kk, ii] = lam_up * factor
+    epigraph[1, kk, ii] = lam_lo * factor
+    block_duals = _block_split(structure, block_mu * factor)
+    bound_duals = (solution.zeta_up[:n] - solution.zeta_lo[:n]) * factor
+    status = solution.status
+    solver_name = solution.solver
+    if select:
+        y = _smoothest(structure, data, chosen, best, y)
     elapsed = time.perf_counter() - started
-    yv = _snap(structure, data, yv)
-    m = data.moments(yv)
+    m = model.moments(y)
     value = float(np.max(np.abs(m) / np.where(c > 0, c, np.inf))) if np.any(c > 0) else best
-    slacks = tuple(np.asarray(q) - blk @ yv for (_, blk), q in zip(structure.blocks, data.q, strict=True))
-    return ProgramSolution(status, yv, max(value, best), min(bound, best), stationarity, epi, duals, slacks,
-                           elapsed, solver, int(np.count_nonzero(chosen)))
+    slacks = tuple(np.asarray(q) - blk @ y for (_, blk), q in zip(structure.blocks, data.q, strict=True))
+    return ProgramSolution(status, y, max(value, best), min(bound, best), stationarity, epigraph, block_duals, slacks,
+                           bound_duals, elapsed, solver_name, int(np.count_nonzero(chosen)), solution.basis)
 
 
-@contextlib.contextmanager
-def silent_stdout():
-    """Send file descriptor 1 to /dev/null: HiGHS writes its banner there from C++, whatever its
-    output options say (a known HiGHS/cvxpy issue), and solvers must not print."""
-    sys.stdout.flush()
-    saved = os.dup(1)
-    try:
-        with open(os.devnull, "w") as null:
-            os.dup2(null.fileno(), 1)
-            yield
-    finally:
-        sys.stdout.flush()
-        os.dup2(saved, 1)
-        os.close(saved)
+def second_differences(x: np.ndarray) -> sp.csr_matrix:
+    """d2y/dx2 at the interior stations as a sparse (n - 2, n) matrix (1/m)."""
+    h0, h1 = np.diff(x)[:-1], np.diff(x)[1:]
+    mean = 0.5 * (h0 + h1)
+    n = x.size
+    return sp.diags([1 / (h0 * mean), -(1 / h0 + 1 / h1) / mean, 1 / (h1 * mean)], [0, 1, 2], shape=(n - 2, n)).tocsr()
 
 
-def _snap(structure: Structure, data: ProgramData, y: np.ndarray) -> np.ndarray:
-    """Meet the equality rows exactly: an ordinate fixed by a row (a springing, a hinge) takes its value,
-    a symmetric pair its mean. Solvers meet equalities only to their tolerance (about 1e-8 m)."""
-    y = y.copy()
-    eq = structure.equality.tocsr()
-    for r in range(eq.shape[0]):
-        cols, vals = eq.indices[eq.indptr[r]:eq.indptr[r + 1]], eq.data[eq.indptr[r]:eq.indptr[r + 1]]
-        if cols.size == 1:
-            y[cols[0]] = data.g[r] / vals[0]
-        elif cols.size == 2 and np.isclose(vals[0], -vals[1]) and data.g[r] == 0.0:
-            y[cols] = y[cols].mean()
-    return y
+def smoothest_within(structure: Structure, data: ProgramData, limit: float, chosen: np.ndarray | None = None,
+                     fallback: np.ndarray | None = None) -> tuple[np.ndarray | None, float]:
+    """Among the axes whose linear-model objective stays within ``limit`` (epigraph unit), the one of
+    least sum of (d2y/dx2)^2, by constraint generation; returns (y or ``fallback`` if the QP fails,
+    solve time s). Every other constraint of the program holds."""
+    model = data.model
+    n = model.stations
+    started = time.perf_counter()
+    c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
+    if chosen is None:
+        chosen = _initial_rows(data, fallback)
+    curvature = second_differences(model.x)
+    scale = float(np.abs(curvature).max()) or 1.0
+    chosen = chosen.copy()
+    for _ in range(MAX_ROUNDS):
+        kk, ii = np.nonzero(chosen)
+        layout = _layout(model, np.unique(kk), 0)
+        size = layout.size
+        eq, g, blocks, q = _common_rows(structure, data, size)
+        aux, aux_rhs = _aux_equalities(model, layout)
+        rows, const = _moment_rows(model, layout, kk, ii)
+        bound = c[kk, ii] * limit
+        A_ub = sp.vstack([blocks, rows, -rows], format="csr")
+        b_ub = np.concatenate([q, bound - const, bound + const])
+        d2 = _pad(curvature / scale, size)
+        P = (2.0 * d2.T @ d2).tocsc()
+        lower, upper = _bounds(data, size)
+        problem = ConvexProblem(np.zeros(size), A_ub, b_ub, sp.vstack([eq, aux], format="csr"),
+                                np.concatenate([g, aux_rhs]), lower, upper, P)
+        solution = solve_convex(problem, Solver.CLARABEL)
+        if not solution.solved:
+            return fallback, time.perf_counter() - started
+        y = solution.z[:n]
+        m = model.moments(y)
+        violated = (np.abs(m) > c * limit * (1 + 1e-9) + 1e-12) & ~chosen
+        if not violated.any():
+            return y, time.perf_counter() - started
+        chosen |= violated
+    return fallback, time.perf_counter() - started
 
 
-def _run(problem, solver: str) -> str:
-    import cvxpy as cp
-
-    try:
-        if solver == "HIGHS":
-            with silent_stdout():
-                problem.solve(solver=solver, output_flag=False)
-        else:
-            problem.solve(solver=solver)
-        return str(problem.status)
-    except cp.error.SolverError as exc:
-        return f"solver_error: {exc}"
+def _smoothest(structure: Structure, data: ProgramData, chosen: np.ndarray, best: float, y: np.ndarray) -> np.ndarray:
+    limit = best + SELECT_SLACK * max(abs(best), 1e-12)
+    smooth, _ = smoothest_within(structure, data, limit, chosen, y)
+    return y if smooth is None else smooth
 
 
-class FormProgram:
-    """The full program compiled once with cvxpy Parameters for one `Structure` (study re-solves)."""
-
-    def __init__(self, structure: Structure) -> None:
-        import cvxpy as cp  # imported here: cvxpy takes about a second to import
-
-        self.structure = structure
-        n, k = structure.stations, structure.states
-        self._y = cp.Variable(n, name="y")
-        self._s = cp.Variable(name="s")
-        self._a = cp.Parameter(k * n, name="a")
-        self._h = cp.Parameter(k * n, name="h")
-        tile = sp.vstack([sp.identity(n, format="csr")] * k, format="csr")
-        moments = self._a - cp.multiply(self._h, tile @ self._y)
-        self._g = cp.Parameter(structure.equality.shape[0], name="g")
-        self._q = [cp.Parameter(block.shape[0], name=f"q_{name}") for name, block in structure.blocks]
-        constraints = []
-        self._eq = None
-        if structure.equality.shape[0]:
-            self._eq = structure.equality @ self._y == self._g
-            constraints.append(self._eq)
-        self._ineq = [block @ self._y <= q for (_, block), q in zip(structure.blocks, self._q, strict=True)]
-        constraints += self._ineq
-        if structure.objective is Objective.RMS:
-            self._w = cp.Parameter(k * n, nonneg=True, name="w")
-            objective = cp.Minimize(cp.sum(cp.multiply(self._w, cp.square(moments))))
-            self._up = self._lo = None
-        else:
-            self._c = cp.Parameter(k * n, nonneg=True, name="c")
-            self._up = moments <= cp.multiply(self._c, self._s)
-            self._lo = -moments <= cp.multiply(self._c, self._s)
-            constraints += [self._up, self._lo]
-            if structure.objective is Objective.MIN_DEPTH:
-                constraints.append(self._s >= 0)
-            objective = cp.Minimize(self._s)
-        self._problem = cp.Problem(objective, constraints)
-        self._tile = tile
-
-    def solve(self, data: ProgramData) -> ProgramSolution:
-        """Solve with the given numbers; never raises for an infeasible or failed solve."""
-        import cvxpy as cp
-
-        if data.jac is not None:
-            raise ValueError("a compiled FormProgram takes the diagonal model (h) only")
-        st = self.structure
-        n, k = st.stations, st.states
-        self._a.value = np.ascontiguousarray(data.a, dtype=float).ravel()
-        self._h.value = np.ascontiguousarray(data.h, dtype=float).ravel()
-        if self._eq is not None:
-            self._g.value = np.asarray(data.g, dtype=float)
-        for param, q in zip(self._q, data.q, strict=True):
-            param.value = np.asarray(q, dtype=float)
-        if st.objective is Objective.RMS:
-            self._w.value = np.tile(np.asarray(data.w, dtype=float), k)
-        else:
-            self._c.value = np.maximum(np.ascontiguousarray(data.c, dtype=float).ravel(), 0.0)
-        start = time.perf_counter()
-        try:
-            self._problem.solve(solver=SOLVER_NAMES[st.solver])
-            status = str(self._problem.status)
-        except cp.error.SolverError as exc:
-            status = f"solver_error: {exc}"
-        elapsed = time.perf_counter() - start
-        if self._y.value is None or status not in ("optimal", "optimal_inaccurate"):
-            return ProgramSolution(status, None, None, None, float("nan"), None, (), (), elapsed,
-                                   SOLVER_NAMES[st.solver])
-        y = np.array(self._y.value, dtype=float)
-        block_duals = tuple(np.asarray(c.dual_value, dtype=float) for c in self._ineq)
-        block_slacks = tuple(
-            np.asarray(q, dtype=float) - block @ y for (_, block), q in zip(st.blocks, data.q, strict=True)
-        )
-        value = float(self._problem.value)
-        nu = np.zeros(0) if self._eq is None else np.asarray(self._eq.dual_value, dtype=float).ravel()
-        if st.objective is Objective.RMS:
-            bound, stationarity = _rms_certificate(st, data, y, block_duals, nu)
-            epi = None
-        else:
-            bound, stationarity, epi = _dual_certificate(
-                st, data, y, np.asarray(self._up.dual_value, dtype=float).ravel(),
-                np.asarray(self._lo.dual_value, dtype=float).ravel(), nu, block_duals)
-        return ProgramSolution(status, y, value, bound, stationarity, epi, block_duals, block_slacks, elapsed,
-                               SOLVER_NAMES[st.solver], n * k)
+def _solve_rms(structure: Structure, data: ProgramData) -> ProgramSolution:
+    """min sum_k sum_i w_i M_ki^2: a QP with the moments as variables (P diagonal on them)."""
+    model = data.model
+    k, n = model.states, model.stations
+    started = time.perf_counter()
+    layout = _layout(model, np.arange(k), k * n)
+    size = layout.size
+    eq, g, blocks, q = _common_rows(structure, data, size)
+    aux, aux_rhs = _aux_equalities(model, layout)
+    kk, ii = np.divmod(np.arange(k * n), n)
+    rows, const = _moment_rows(model, layout, kk, ii)
+    define = rows - sp.csr_matrix((np.ones(k * n), (np.arange(k * n), n + np.arange(k * n))), shape=(k * n, size))
+    A_eq = sp.vstack([eq, aux, define], format="csr")
+    b_eq = np.concatenate([g, aux_rhs, -const])
+    w = np.tile(np.asarray(data.w, dtype=float), k)
+    diag = np.zeros(size)
+    diag[n:n + k * n] = 2.0 * w
+    P = sp.diags(diag, format="csc")
+    lower, upper = _bounds(data, size)
+    problem = ConvexProblem(np.zeros(size), blocks, q, A_eq, b_eq, lower, upper, P)
+    solution = solve_convex(problem, Solver.CLARABEL if structure.solver is Solver.AUTO else structure.solver)
+    elapsed = time.perf_counter() - started
+    if not solution.solved:
+        return _failed(solution.status, elapsed, solution.solver)
+    y = solution.z[:n]
+    value = float(np.sum(w * model.moments(y).ravel() ** 2))
+    # the Lagrangian at the solution: a lower bound by convexity where it is stationary
+    z = solution.z
+    residual = P @ z + problem.A_ub.T @ solution.mu + problem.A_eq.T @ solution.nu - solution.zeta_lo + solution.zeta_up
+    scale = max(float(np.abs(P @ z).max()), 1e-300)
+    slack_terms = float(solution.mu @ (problem.A_ub @ z - problem.b_ub))
+    bound = value + slack_terms
+    duals = _block_split(structure, solution.mu)
+    slacks = tuple(np.asarray(qq) - blk @ y for (_, blk), qq in zip(structure.blocks, data.q, strict=True))
+    return ProgramSolution(solution.status, y, value, bound, float(np.abs(residual).max() / scale), None, duals, slacks,
+                           solution.zeta_up[:n] - solution.zeta_lo[:n], elapsed, solution.solver, k * n)

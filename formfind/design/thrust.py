@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from formfind.analysis.statics import CutResultants, cut_resultants, internal_forces
-from formfind.design.program import silent_stdout
+from formfind.design.convex import silent_stdout
 from formfind.enums import SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.geometry import Axis

@@ -187,6 +187,7 @@ class FindSettings:
     max_iterations: int = 60
     tolerance_m: float | None = None
     step_limit_m: float | None = None
+    optimality_gap: float = 1e-4
 
 
 @dataclass(frozen=True)
@@ -615,4 +616,5 @@ def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[Load
         max_iterations=f["max_iterations"],
         tolerance_m=f["tolerance_m"],
         step_limit_m=f["step_limit_m"],
+        optimality_gap=f["optimality_gap"],
     )

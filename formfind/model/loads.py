@@ -16,7 +16,7 @@ per state and produce forces only in statically indeterminate arches.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -421,14 +421,111 @@ def case_distributed(case: LoadCase, axis: Axis, section: SectionAlong) -> np.nd
 
 def fill_intensity(load: FillLoad, axis: Axis, section: SectionAlong) -> np.ndarray:
     """Fill load per metre of horizontal projection at every station (kN/m), downward."""
-    if load.reference is FillReference.EXTRADOS:
-        cos = np.maximum(np.abs(np.cos(axis.theta)), 1e-6)
-        level = axis.y + 0.5 * section.depth_m / cos
-    else:
-        level = axis.y.copy()
+    level = _fill_level(load, axis, section)
     surface = load.surface_y_m if load.surface_y_m is not None else float(np.max(level)) + float(load.cover_m or 0.0)
     depth = np.maximum(surface - level, 0.0)
     return load.width_m * (load.unit_weight_kN_m3 * depth + load.surcharge_kPa)
+
+
+def moves_with_shape(load: Load) -> bool:
+    """True if the load's densities on the elements change when the station ordinates move (self-weight
+    per arc length, normal pressure, fill, line loads per vertical projection or per arc length)."""
+    if isinstance(load, SelfWeight | NormalPressure | FillLoad):
+        return True
+    return isinstance(load, LineLoad) and load.projection is not Projection.HORIZONTAL
+
+
+DERIVATIVE_STEP = 1e-5  # central-difference step of `density_derivative`, relative to the span
+
+
+def density_derivative(case: LoadCase, axis: Axis, section: SectionAlong):
+    """d(densities)/dy of one load case: a sparse matrix (elements x 4, stations), or None if its loads
+    do not move with the shape.
+
+    Row 4 e + 2 end + component is the density of element e at its end a (0) or b (1), component x (0)
+    or y (1), as in `StationLoads.dist`; column j is the ordinate of station j. The tangent angles and
+    the section stay as they are (they follow the smooth axis, which the engines re-fit after a move).
+    Each element's densities depend on its own two stations, so two coloured central differences (even
+    stations, then odd ones) give every entry; the springings stay where they are. A fill surface set
+    by cover above the highest point moves with that point: its column is added exactly.
+    """
+    import scipy.sparse as sp
+
+    moving = [ld for ld in case.loads if moves_with_shape(ld)]
+    if not moving:
+        return None
+    n = axis.count
+    elements = n - 1
+    eps = DERIVATIVE_STEP * axis.span_m
+    frozen: list[Load] = []
+    surface_columns: list[tuple[int, np.ndarray]] = []
+    for ld in moving:
+        if isinstance(ld, FillLoad) and ld.surface_y_m is None:
+            level = _fill_level(ld, axis, section)
+            top = int(np.argmax(level))
+            surface = float(level[top]) + float(ld.cover_m or 0.0)
+            frozen.append(replace(ld, surface_y_m=surface, cover_m=None))
+            # d w / d surface at the stations, where the fill has depth; its element densities
+            rate = ld.width_m * ld.unit_weight_kN_m3 * (surface - level > 0)
+            dens = np.zeros((elements, 2, 2))
+            dens[:, 0, 1] = -rate[:-1] * np.diff(axis.x)
+            dens[:, 1, 1] = -rate[1:] * np.diff(axis.x)
+            surface_columns.append((top, dens.reshape(-1)))
+        else:
+            frozen.append(ld)
+    rows, cols, vals = [], [], []
+    index = np.arange(elements)
+    for parity in (0, 1):
+        mask = np.zeros(n)
+        mask[1:-1][(np.arange(1, n - 1) % 2) == parity] = 1.0
+        diff = np.zeros((elements, 2, 2))
+        for sign in (1.0, -1.0):
+            moved = Axis(axis.x, axis.y + sign * eps * mask, axis.theta)
+            for ld in frozen:
+                diff += sign * _distributed(ld, moved, section)
+        diff /= 2.0 * eps
+        node = np.where(index % 2 == parity, index, index + 1)  # the element's perturbed end
+        keep = mask[node] > 0
+        e = index[keep]
+        rows.append((4 * e[:, None] + np.arange(4)[None, :]).ravel())
+        cols.append(np.repeat(node[keep], 4))
+        vals.append(diff[keep].reshape(-1))
+    for top, dens in surface_columns:
+        if 0 < top < n - 1:
+            rows.append(np.arange(4 * elements))
+            cols.append(np.full(4 * elements, top))
+            vals.append(dens)
+    return sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                         shape=(4 * elements, n))
+
+
+def combine_density_rates(case_rates: list, factors: np.ndarray):
+    """The density rates of load states made of load cases: sparse (K x elements x 4, stations).
+
+    ``case_rates``: one `density_derivative` per load case (None where nothing moves); ``factors``
+    (K, cases): the factor of each case in each state. Returns None when no state has a moving load.
+    """
+    import scipy.sparse as sp
+
+    if all(r is None for r in case_rates):
+        return None
+    shape = next(r.shape for r in case_rates if r is not None)
+    blocks = []
+    for row in factors:
+        block = sp.csr_matrix(shape)
+        for f, rate in zip(row, case_rates, strict=True):
+            if rate is not None and f:
+                block = block + f * rate
+        blocks.append(block)
+    return sp.vstack(blocks, format="csr")
+
+
+def _fill_level(load: FillLoad, axis: Axis, section: SectionAlong) -> np.ndarray:
+    """Level (m) of the line the fill depth is measured to: the extrados measured vertically, or the axis."""
+    if load.reference is FillReference.EXTRADOS:
+        cos = np.maximum(np.abs(np.cos(axis.theta)), 1e-6)
+        return axis.y + 0.5 * section.depth_m / cos
+    return axis.y.copy()
 
 
 def case_station_loads(case: LoadCase, axis: Axis, section: SectionAlong) -> StationLoads:

@@ -251,12 +251,17 @@ FIND = Table(
             positive=True),
         Key("kern_fraction", "number", "For min_depth: the thrust line stays within this fraction of the "
             "depth, centred (1/3 = middle third).", default=1.0 / 3.0, positive=True, maximum=1.0),
-        Key("solver", Solver, "Convex solver; auto: Clarabel for sparse programs and quadratic ones, HiGHS "
-            "for the dense linear programs of the sequential method.", default=Solver.AUTO.value),
+        Key("solver", Solver, "Convex solver of the linear programs; auto: HiGHS (simplex) for the steps of "
+            "the sequential method, each warm-started from the last, Clarabel (interior point) for one-off "
+            "programs. Quadratic programs always go to Clarabel.", default=Solver.AUTO.value),
         Key("max_iterations", "integer", "Steps of the sequential method (shape-dependent loads, "
             "indeterminate arches, rise bounds, min_depth), 1..500.", default=60, minimum=1, maximum=500),
         Key("tolerance_m", "number", "The sequential method stops when no ordinate moves more than this; "
             "default: 1e-5 of the span.", "m", default=None, positive=True),
+        Key("optimality_gap", "number", "The sequential method also stops when its first-order certificate "
+            "puts the objective within this fraction of the best any nearby axis can do (1e-4: 0.01 %, far "
+            "below what a load model resolves; common practice, no source).", default=1e-4, positive=True,
+            maximum=0.1),
         Key("step_limit_m", "number", "Largest change of any ordinate in one iteration (indeterminate "
             "arches); default: a quarter of the rise.", "m", default=None, positive=True),
     ),

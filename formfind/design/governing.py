@@ -1,0 +1,150 @@
+"""The governing load states of form finding: which they are, their response on an axis, and the
+objective's exact value there.
+
+Form finding minimises a measure of the bending of the governing states (`[find] governing`, else
+every combination, else every load case). Their loads are rebuilt on every axis tried, so loads that
+follow the shape (self-weight per arc length, fill, normal pressure, loads per vertical projection)
+are always those of that axis; `density_rates` gives how they move with the ordinates.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from formfind.analysis.engine import frame_model, respond
+from formfind.analysis.frame import FrameModel
+from formfind.analysis.response import Response
+from formfind.enums import Objective, SupportKind
+from formfind.errors import FormFindingError
+from formfind.model.case import Case
+from formfind.model.geometry import Axis
+from formfind.model.loads import (
+    StationLoads,
+    build_load_set,
+    combine_density_rates,
+    density_derivative,
+    moves_with_shape,
+)
+from formfind.model.section import Section
+
+
+def governing_groups(case: Case) -> tuple[str, ...]:
+    """Names of the combinations or cases that govern form finding."""
+    if case.find.governing:
+        return case.find.governing
+    if case.combinations:
+        return tuple(c.name for c in case.combinations)
+    return tuple(c.name for c in case.cases)
+
+
+def governing_loads(case: Case, axis: Axis, section: Section) -> StationLoads:
+    """Station loads of the governing states on ``axis``."""
+    load_set = build_load_set(case.cases, case.combinations, axis, section.at(axis))
+    wanted = set(governing_groups(case))
+    parts = []
+    for loads in (load_set.combinations, load_set.cases):
+        idx = [i for i, g in enumerate(loads.groups) if g in wanted]
+        if idx:
+            parts.append(loads.select(idx))
+    return StationLoads.concatenate(parts, axis.count - 1)
+
+
+def _used_cases(case: Case) -> set[str]:
+    wanted = set(governing_groups(case))
+    used = set()
+    for combo in case.combinations:
+        if combo.name in wanted:
+            used.update(name for name, _ in combo.factors)
+    used.update(c.name for c in case.cases if c.name in wanted)
+    return used
+
+
+def loads_move(case: Case) -> bool:
+    """True if a governing load's densities change with the shape (`moves_with_shape`)."""
+    used = _used_cases(case)
+    return any(moves_with_shape(ld) for lc in case.cases if lc.name in used for ld in lc.loads)
+
+
+def has_horizontal(loads: StationLoads) -> bool:
+    """True if a state has a horizontal load component (its moments then depend on load heights)."""
+    return bool(np.any(loads.dist[:, :, :, 0]) or np.any(loads.point_force[:, 0]))
+
+
+def state_case_factors(case: Case, loads: StationLoads) -> np.ndarray:
+    """(states, cases): the factor of each load case in each governing state."""
+    names = [c.name for c in case.cases]
+    combos = {c.name: dict(c.factors) for c in case.combinations}
+    factors = np.zeros((loads.count, len(names)))
+    for k, group in enumerate(loads.groups):
+        for c, name in enumerate(names):
+            factors[k, c] = combos[group].get(name, 0.0) if group in combos else float(group == name)
+    return factors
+
+
+def density_rates(case: Case, axis: Axis, section: Section, loads: StationLoads):
+    """How the governing states' element densities move with the ordinates: sparse
+    (K x elements x 4, stations), or None if no governing load moves with the shape."""
+    if not loads_move(case):
+        return None
+    along = section.at(axis)
+    used = _used_cases(case)
+    per_case = [density_derivative(lc, axis, along) if lc.name in used else None for lc in case.cases]
+    return combine_density_rates(per_case, state_case_factors(case, loads))
+
+
+def analyse_governing(case: Case, axis: Axis, section: Section) -> tuple[Response, StationLoads, FrameModel | None]:
+    """The governing states' loads on ``axis`` and their response (exact statics for a three-hinged
+    arch, else the frame model, which is returned too)."""
+    loads = governing_loads(case, axis, section)
+    model = None if case.supports.kind is SupportKind.THREE_HINGED else frame_model(
+        replace(case, section=section), axis, section.at(axis), estimate_condition=False)
+    return respond(case, axis, loads, model), loads, model
+
+
+def horizontal_resultant(response: Response, axis: Axis) -> np.ndarray:
+    """Horizontal component (kN) of the resultant left of each station (just right of it)."""
+    cos, sin = np.cos(axis.theta), np.sin(axis.theta)
+    return -response.N * cos - response.V * sin
+
+
+def tributary(axis: Axis) -> np.ndarray:
+    """Length of axis (m) each station stands for: half of each chord it touches."""
+    lengths = axis.chord_lengths
+    w = np.zeros(axis.count)
+    w[:-1] += 0.5 * lengths
+    w[1:] += 0.5 * lengths
+    return w
+
+
+def objective_weights(objective: Objective, h: np.ndarray, response: Response, kern_fraction: float) -> np.ndarray:
+    """The epigraph weights c (K, n) of `formfind.design.program`: 1, H, or half the kern times |N|."""
+    if objective is Objective.OFFSET:
+        if np.any(h <= 0):
+            raise FormFindingError("the offset objective needs every governing state in compression (H > 0)")
+        return h
+    if objective is Objective.MIN_DEPTH:
+        return 0.5 * kern_fraction * np.abs(response.N)
+    return np.ones_like(h)
+
+
+def exact_value(objective: Objective, response: Response, axis: Axis, kern_fraction: float) -> float:
+    """The objective of ``response`` on ``axis`` in its reported unit (kNm or m)."""
+    M = response.M
+    if objective is Objective.MINIMAX:
+        return float(np.abs(M).max())
+    if objective is Objective.RMS:
+        w = tributary(axis)
+        return float(np.sqrt(np.sum(w * M**2) / (np.sum(w) * M.shape[0])))
+    if objective is Objective.OFFSET:
+        return float(np.max(np.abs(M) / horizontal_resultant(response, axis)))
+    return float(np.max(np.abs(M) / (0.5 * kern_fraction * np.abs(response.N))))
+
+
+def reported(objective: Objective, value: float, states: int, axis: Axis) -> float:
+    """A program's objective in its reported unit (rms: the root mean square moment, kNm)."""
+    if objective is Objective.RMS:
+        total = float(np.sum(tributary(axis))) * states
+        return float(np.sqrt(max(value, 0.0) / total))
+    return value
