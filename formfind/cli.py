@@ -253,7 +253,6 @@ def _progress(quiet: bool):
 
 def _study(args: argparse.Namespace) -> int:
     import contextlib
-    import multiprocessing
 
     from formfind.design.study import points_of, run_study
     from formfind.output import files
@@ -277,14 +276,13 @@ def _study(args: argparse.Namespace) -> int:
             executor = client.get_executor()
             window = 2 * max(1, sum(client.nthreads().values()))
         elif not args.serial:
-            from concurrent.futures import ProcessPoolExecutor
+            from formfind.design.study import process_pool
 
             workers = args.workers or os.cpu_count() or 1
             if workers < 1:
                 raise UsageError(f"--workers: expected at least 1, got {workers}")
             if workers > 1 and len(points) > 1:
-                # spawn: a forked child of a process holding solver threads can deadlock
-                executor = stack.enter_context(ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")))
+                executor = stack.enter_context(process_pool(workers))
         rows = run_study(case, points, executor, _progress(args.quiet), window)
         written, kept = write_study(folder, case, rows, args.overwrite)
     if not args.quiet:

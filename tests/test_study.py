@@ -182,3 +182,17 @@ def test_the_package_api_does_the_whole_job():
     assert isinstance(verdicts, formfind.CheckResult) and verdicts.rows
     # the same point through the study and by hand: the same optimum
     assert rows[0].objective == pytest.approx(shape.value, rel=1e-9, abs=1e-9)
+
+
+def test_pool_workers_run_one_thread_per_numerical_library_and_the_parent_is_left_as_it_was():
+    """Oversubscription guard: each worker inherits one BLAS/OpenMP thread; the parent's environment
+    is restored when the pool closes."""
+    import os
+
+    from formfind.design.study import THREAD_VARIABLES, process_pool
+
+    before = {name: os.environ.get(name) for name in THREAD_VARIABLES}
+    with process_pool(2) as pool:
+        seen = pool.submit(os.getenv, "OPENBLAS_NUM_THREADS").result()
+    assert seen == "1"
+    assert {name: os.environ.get(name) for name in THREAD_VARIABLES} == before

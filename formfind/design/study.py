@@ -19,8 +19,10 @@ holds no more than a few axes in memory: rows are yielded (streamed) as they com
 
 from __future__ import annotations
 
+import contextlib
 import logging
 import math
+import os
 import time
 from collections import deque
 from collections.abc import Callable, Iterator
@@ -36,6 +38,9 @@ from formfind.model.section import Section
 
 MAX_POINTS = 10_000  # a sweep larger than this is refused (documented in the README)
 WINDOW_PER_WORKER = 2  # points in flight per worker
+# the thread counts of the numerical libraries a worker may load: one each, so that N workers use N cores
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS",
+                    "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
 
 log = logging.getLogger(__name__)
 
@@ -215,6 +220,28 @@ def evaluate(case: Case, point: StudyPoint) -> StudyRow:
         find_s=t1 - t0, check_s=t2 - t1,
         axis_x_m=tuple(result.axis.x.tolist()), axis_y_m=tuple(result.axis.y.tolist()),
     )
+
+
+@contextlib.contextmanager
+def process_pool(workers: int):
+    """A pool of ``workers`` processes (spawned: a forked child of a process holding solver threads can
+    deadlock), each with one thread per numerical library: the thread counts are set in the
+    environment the workers inherit, before they load numpy, and restored when the pool closes.
+    Without it every worker starts a BLAS thread per core and the workers fight for the cores."""
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    saved = {name: os.environ.get(name) for name in THREAD_VARIABLES}
+    os.environ.update({name: "1" for name in THREAD_VARIABLES})
+    try:
+        with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("spawn")) as pool:
+            yield pool
+    finally:
+        for name, value in saved.items():
+            if value is None:
+                os.environ.pop(name, None)
+            else:
+                os.environ[name] = value
 
 
 def _evaluate_args(args: tuple[Case, StudyPoint]) -> StudyRow:
