@@ -165,7 +165,7 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
         actual = current - value
         ratio = actual / predicted if predicted > 0 else (1.0 if actual >= 0 else -1.0)
         if ratio < SHRINK_BELOW:
-            radius = max(0.5 * change, 0.25 * radius) if change > 0 else 0.5 * radius
+            radius = 0.5 * min(change, radius) if change > 0 else 0.5 * radius
         elif ratio > EXPAND_ABOVE and change >= 0.99 * radius:
             radius = min(2.0 * radius, largest)
         log.debug("step %d: radius %.3g change %.3g current %.9g trial %.9g ratio %.3g", number, radius, change,
