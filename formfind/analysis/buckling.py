@@ -81,17 +81,23 @@ def element_axial_forces(model: FrameModel, loads: StationLoads) -> np.ndarray:
 def axial_from_reactions(axis: Axis, loads: StationLoads, left_force: np.ndarray, cos: np.ndarray,
                          sin: np.ndarray) -> np.ndarray:
     """Element axial forces (states, elements), kN, tension positive, from the force (states, 2) that
-    the left support (and a tie) applies to the arch: the resultant of the part left of each
-    element's midpoint, projected on the chord (direction ``cos``, ``sin``)."""
+    the left support (and a tie) applies to the arch: the mean over the element of the resultant of
+    the part left of each point, projected on the chord (direction ``cos``, ``sin``).
+
+    The mean (rather than the value at one point of the element) moves continuously with a load inside
+    the element: a point load at parameter t adds (1 - t) of itself, a linear density (f_a, f_b) adds
+    f_a / 3 + f_b / 6. A value taken at the midpoint jumped by a whole point load as the load crossed
+    it, which a second-order iteration on a slightly moved axis could not settle.
+    """
     cuts = cut_resultants(axis, loads)
     fa, fb = loads.dist[:, :, 0, :], loads.dist[:, :, 1, :]
-    half = 0.375 * fa + 0.125 * fb  # integral of the density over t in [0, 1/2]
-    left = cuts.force_right[:, :-1] + half + left_force[:, None, :]
-    if loads.point_x.size:  # point loads inside the first half of their element
+    mean = fa / 3.0 + fb / 6.0  # integral over s of the density's integral over t in [0, s]
+    left = cuts.force_right[:, :-1] + mean + left_force[:, None, :]
+    if loads.point_x.size:  # point loads inside their element (one at its start is in force_right)
         e = np.clip(np.searchsorted(axis.x, loads.point_x, side="right") - 1, 0, axis.count - 2)
-        t = (loads.point_x - axis.x[e]) / (axis.x[e + 1] - axis.x[e])
-        inner = (t > 1e-12) & (t <= 0.5)
-        np.add.at(left, (loads.point_state[inner], e[inner]), loads.point_force[inner])
+        t = np.clip((loads.point_x - axis.x[e]) / (axis.x[e + 1] - axis.x[e]), 0.0, 1.0)
+        inner = t > 1e-12
+        np.add.at(left, (loads.point_state[inner], e[inner]), (1.0 - t[inner])[:, None] * loads.point_force[inner])
     return -(left[..., 0] * cos + left[..., 1] * sin)
 
 
