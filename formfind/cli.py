@@ -290,11 +290,14 @@ def _study(args: argparse.Namespace) -> int:
         passing = [r for r in ok if r.verdict == "pass"]
         print(f"study of {case.name}: {len(kept)} points, {len(ok)} with an axis, {len(passing)} passing every check; "
               f"{len(kept) - len(ok)} without an axis (see the reason column)")
+        from formfind.output.numbers import fixed, for_reading
+
         print(f"{'span m':>7} {'rise/span':>9} {'depth m':>8} {'status':<10} {'H max kN':>10} {'peak M kNm':>11} "
               f"{'buckling':>9} {'verdict':<7}")
         for r in kept[:40]:
-            print(f"{r.span_m:>7.4g} {r.rise_over_span:>9.4g} {r.depth_m:>8.4g} {r.status:<10} {r.max_thrust_kN:>10.4g} "
-                  f"{r.peak_M_all_kNm:>11.4g} {r.buckling_factor:>9.3g} {r.verdict:<7}")
+            print(f"{fixed(r.span_m, 3):>7} {for_reading(r.rise_over_span):>9} {fixed(r.depth_m, 3):>8} {r.status:<10} "
+                  f"{for_reading(r.max_thrust_kN, 5):>10} {for_reading(r.peak_M_all_kNm, 5):>11} "
+                  f"{for_reading(r.buckling_factor, 3):>9} {r.verdict:<7}")
         if len(kept) > 40:
             print(f"... {len(kept) - 40} more rows in study.csv")
         if kept:
@@ -307,33 +310,39 @@ def _study(args: argparse.Namespace) -> int:
 
 
 def _print_checks(checks) -> None:
-    print(f"{'check':<34} {'value':>11} {'limit':>10} {'unit':<4} {'util':>6}  {'governing':<24} {'x m':>6}  verdict")
+    from formfind.output.numbers import for_reading, length
+
+    print(f"{'check':<34} {'value':>11} {'limit':>10} {'unit':<4} {'util':>6}  {'governing':<24} {'x m':>7}  verdict")
     for r in checks.rows:
         if r.verdict == "info":
             continue
-        limit = "" if r.limit is None else f"{r.limit:.4g}"
-        util = "" if r.utilisation is None else f"{r.utilisation:.2f}"
-        where = "" if r.x_m is None else f"{r.x_m:.2f}"
-        print(f"{r.name[:34]:<34} {r.value:>11.4g} {limit:>10} {r.unit:<4} {util:>6}  {r.combination[:24]:<24} "
-              f"{where:>6}  {r.verdict.upper()}{'  ' + r.note if r.note else ''}")
+        limit = "" if r.limit is None else for_reading(r.limit)
+        util = for_reading(r.utilisation, 3)
+        where = "" if r.x_m is None else length(r.x_m)
+        print(f"{r.name[:34]:<34} {for_reading(r.value):>11} {limit:>10} {r.unit:<4} {util:>6}  {r.combination[:24]:<24} "
+              f"{where:>7}  {r.verdict.upper()}{'  ' + r.note if r.note else ''}")
     print("verdict: " + ("all checks pass" if checks.passed else "SOME CHECKS FAIL"))
 
 
 def _print_shape(shape) -> None:
-    bound = "" if shape.dual_bound is None else f", dual bound {shape.dual_bound:.6g} (gap {shape.gap:.1e})"
-    print(f"found axis: {shape.objective.value} = {shape.value:.6g} {shape.unit} by {shape.method} "
+    from formfind.output.numbers import for_reading, length, significant
+
+    bound = "" if shape.dual_bound is None else f", dual bound {significant(shape.dual_bound)} (gap {shape.gap:.1e})"
+    print(f"found axis: {shape.objective.value} = {significant(shape.value)} {shape.unit} by {shape.method} "
           f"({shape.solver}, {shape.status}, {shape.solve_time_s:.2f} s in the solver){bound}; "
-          f"{len(shape.iterations)} iteration(s); checked by the exact engine: {shape.checked_value:.6g} {shape.unit}")
+          f"{len(shape.iterations)} iteration(s); checked by the exact engine: {significant(shape.checked_value)} "
+          f"{shape.unit}")
     if shape.governing:
-        where = ", ".join(f"{g.state} at x = {g.x_m:.2f} m" for g in shape.governing[:4])
+        where = ", ".join(f"{g.state} at x = {length(g.x_m)} m" for g in shape.governing[:4])
         print(f"governing: {where}{' ...' if len(shape.governing) > 4 else ''}")
     for a in shape.active:
-        cost = "" if a.cost != a.cost else f", cost {a.cost:.4g} {a.unit}"
+        cost = "" if a.cost != a.cost else f", cost {for_reading(a.cost)} {a.unit}"
         print(f"active constraint: {a.name} at {len(a.stations)} station(s){cost}")
 
 
 def _print_summary(result) -> None:
     from formfind.analysis.response import summarise
+    from formfind.output.numbers import fixed, for_reading
 
     case = result.case
     print(f"{case.name}: {case.supports.kind.value} {case.geometry.shape.value}, span "
@@ -346,10 +355,10 @@ def _print_summary(result) -> None:
     for label, resp in (("case", result.cases), ("comb", result.combinations)):
         for s in summarise(resp):
             lam = factors.get(s.group)
-            lam_text = "" if lam is None else ("none" if lam == float("inf") else f"{lam:.2f}")
-            print(f"{label:<5} {s.group[:22]:<22} {s.thrust_kN:>10.1f} {s.M.value:>11.1f} "
-                  f"{s.M.x_m:>7.2f} {s.N.value:>10.1f} {s.N.x_m:>7.2f} {s.V.value:>10.1f} {s.V.x_m:>7.2f} "
-                  f"{lam_text:>9}")
+            lam_text = "" if lam is None else ("none" if lam == float("inf") else for_reading(lam, 3))
+            print(f"{label:<5} {s.group[:22]:<22} {fixed(s.thrust_kN, 1):>10} {fixed(s.M.value, 1):>11} "
+                  f"{fixed(s.M.x_m, 2):>7} {fixed(s.N.value, 1):>10} {fixed(s.N.x_m, 2):>7} {fixed(s.V.value, 1):>10} "
+                  f"{fixed(s.V.x_m, 2):>7} {lam_text:>9}")
     if result.buckling:
         print("buckling: factor on each combination at which the arch buckles in its plane "
               "(linear elastic; loads keep their direction unless the case says otherwise)")

@@ -289,14 +289,17 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
         limit = settings.tension_limit_kN_m2
         value, group, state, i = _worst(high, response)
         value = max(value, 0.0)
-        util = value / limit if limit > 0 else (0.0 if value <= 0 else np.inf)
+        util = value / limit if limit > 0 else None  # a zero limit has no ratio: the value is judged
+        zero = "limit 0: no utilisation, judged by the value" if limit <= 0 else ""
         rows.append(CheckRow("tensile stress", value * to_mpa, limit * to_mpa, "MPa", util, group, state, i,
-                             float(x[i]), PASS if value <= limit else FAIL, note))
+                             float(x[i]), PASS if value <= limit else FAIL, "; ".join(t for t in (note, zero) if t)))
     if settings.eccentricity_limit is not EccentricityLimit.NONE:
         rows.append(_eccentricity_row(settings.eccentricity_limit, response, M, N, sec, pattern, terms, x, note))
     for group, a in alpha.items():
-        util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else 0.0
+        util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else None
         so = f"second-order by {_group_method(response, method, group)}" if a < settings.second_order_below else ""
+        if not np.isfinite(a):
+            so = "no compression to buckle under: no factor, no utilisation"
         rows.append(CheckRow("in-plane buckling factor", float(a) if np.isfinite(a) else float("inf"),
                              settings.min_buckling_factor, "-", util, group, group, None, None,
                              PASS if a >= settings.min_buckling_factor else FAIL, so))

@@ -17,7 +17,7 @@ import numpy as np
 from formfind import __version__
 from formfind.design.study import StudyRow, pareto_front
 from formfind.model.case import Case
-from formfind.output import files, plots, tables
+from formfind.output import files, numbers, plots, tables
 from formfind.output.package import figure_bytes
 
 FIGURES = ("fig-study-thrust", "fig-study-moment", "fig-study-buckling", "fig-study-material", "fig-study-pareto")
@@ -44,7 +44,7 @@ def write_study(folder: Path, case: Case, rows: Iterable[StudyRow], overwrite: b
         axes.write("point,station,x_m,y_m\n")
         for row in rows:
             out.write(tables.study_line(row, groups))
-            axes.write("".join(f"{row.index},{i},{x!r},{y!r}\n"
+            axes.write("".join(f"{row.index},{i},{numbers.length(x)},{numbers.length(y)}\n"
                                for i, (x, y) in enumerate(zip(row.axis_x_m, row.axis_y_m, strict=True))))
             kept.append(replace(row, axis_x_m=(), axis_y_m=()))  # the axis is on disk: let it go
         csv_path = out.commit()

@@ -23,6 +23,7 @@ from formfind.design.check import CheckResult
 from formfind.design.shape import ShapeResult
 from formfind.model.geometry import Axis
 from formfind.model.section import SectionAlong
+from formfind.output import numbers
 
 SIGN_CONVENTION = (
     "x right from the left springing, y up (m). N tension positive (arch compression is negative). "
@@ -135,6 +136,7 @@ def analysis_json(analysis: CaseAnalysis) -> str:
 
 
 def _csv(header: list[str], rows: list[list[Any]]) -> str:
+    """CSV of mixed rows: floats to six significant figures (`numbers.significant`), text as is."""
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(header)
@@ -144,20 +146,27 @@ def _csv(header: list[str], rows: list[list[Any]]) -> str:
 
 
 def _fmt(v: Any) -> Any:
+    if isinstance(v, bool | np.bool_):
+        return str(bool(v)).lower()
     if isinstance(v, float | np.floating):
-        return repr(float(v))
+        return numbers.significant(float(v))
     return v
 
 
-def _rows_csv(header: list[str], text_cols: list[list[Any]], numbers: np.ndarray) -> str:
-    """CSV from leading text/integer columns and a float block (rows, columns), shortest repr."""
+def _rows_csv(header: list[str], text_cols: list[list[Any]], values: np.ndarray, kinds: list[str]) -> str:
+    """CSV from leading text/integer columns and a float block (rows, columns), each float column
+    formatted by its kind (`numbers.column`: "length", "angle" or "significant")."""
     buf = io.StringIO()
     csv.writer(buf, lineterminator="\n").writerow(header)
-    formatted = [list(map(repr, numbers[:, j].tolist())) for j in range(numbers.shape[1])]
+    formatted = [numbers.column(values[:, j], kinds[j]) for j in range(values.shape[1])]
     texts = [list(map(str, col)) for col in text_cols]
-    buf.write("\n".join(map(",".join, zip(*texts, *formatted, strict=True))))
-    buf.write("\n")
+    if texts or formatted:
+        buf.write("\n".join(map(",".join, zip(*texts, *formatted, strict=True))))
+        buf.write("\n")
     return buf.getvalue()
+
+
+FORCE_KINDS = ["length", "length"] + ["significant"] * 6
 
 
 def forces_csv(analysis: CaseAnalysis) -> str:
@@ -178,10 +187,10 @@ def forces_csv(analysis: CaseAnalysis) -> str:
                 col.extend(values)
             blocks.append(np.column_stack([axis.x, axis.y, env.maximum[0], env.minimum[0], env.maximum[1],
                                            env.minimum[1], env.maximum[2], env.minimum[2]]))
-    numbers = np.vstack(blocks) if blocks else np.zeros((0, 8))
+    values = np.vstack(blocks) if blocks else np.zeros((0, 8))
     header = ["set", "group", "station", "M_max_state", "M_min_state", "x_m", "y_m", "N_max_kN", "N_min_kN",
               "V_max_kN", "V_min_kN", "M_max_kNm", "M_min_kNm"]
-    return _rows_csv(header, text_cols, numbers)
+    return _rows_csv(header, text_cols, values, FORCE_KINDS)
 
 
 def states_csv(analysis: CaseAnalysis) -> str:
@@ -195,9 +204,9 @@ def states_csv(analysis: CaseAnalysis) -> str:
             for col, values in zip(text_cols, ([label] * n, [r.groups[k]] * n, [r.names[k]] * n, list(range(n))), strict=True):
                 col.extend(values)
             blocks.append(np.column_stack([axis.x, axis.y, r.N[k], r.V[k], r.M[k], r.N_left[k], r.V_left[k]]))
-    numbers = np.vstack(blocks) if blocks else np.zeros((0, 7))
+    values = np.vstack(blocks) if blocks else np.zeros((0, 7))
     header = ["set", "group", "state", "station", "x_m", "y_m", "N_kN", "V_kN", "M_kNm", "N_left_kN", "V_left_kN"]
-    return _rows_csv(header, text_cols, numbers)
+    return _rows_csv(header, text_cols, values, FORCE_KINDS[:7])
 
 
 def reactions_csv(analysis: CaseAnalysis) -> str:
@@ -238,15 +247,18 @@ def buckling_csv(analysis: CaseAnalysis) -> str:
     return _csv(header, rows)
 
 
+SETTING_OUT_KINDS = ["length", "length", "angle", "length", "length", "length", "length", "length", "length"]
+
+
 def axis_csv(axis: Axis, section: SectionAlong) -> str:
     """The axis at its stations: x, y, tangent angle, arc length, and intrados and extrados points."""
     intra = axis.intrados(section.depth_m)
     extra = axis.extrados(section.depth_m)
-    numbers = np.column_stack([axis.x, axis.y, np.degrees(axis.theta), axis.arc_length, section.depth_m,
-                               intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
+    values = np.column_stack([axis.x, axis.y, np.degrees(axis.theta), axis.arc_length, section.depth_m,
+                              intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
     header = ["station", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
               "extrados_x_m", "extrados_y_m"]
-    return _rows_csv(header, [list(range(axis.count))], numbers)
+    return _rows_csv(header, [list(range(axis.count))], values, SETTING_OUT_KINDS)
 
 
 def shape_json(result: ShapeResult, case_name: str) -> str:
@@ -295,19 +307,22 @@ def setting_out_csv(axis: Axis, section: SectionAlong, interval_m: float) -> str
     """Setting-out points every ``interval_m`` of x (and at both springings), on the smooth axis.
 
     Columns: point, x, y, tangent angle (deg), arc length from the left springing, rib depth, and the
-    intrados and extrados points normal to the axis. Between stations the axis is the cubic Hermite
-    curve through the stations' ordinates and tangents.
+    intrados and extrados points normal to the axis; lengths to the millimetre, angles to 0.001
+    degree. Between stations the axis is the cubic Hermite curve through the stations' ordinates and
+    tangents. The abscissae are whole multiples of the interval (computed as k x interval, so no
+    sum of steps drifts).
     """
-    x = np.arange(axis.x[0], axis.x[-1], interval_m)
-    x = np.unique(np.concatenate([x, [axis.x[-1]]]))
+    count = int(np.floor((axis.x[-1] - axis.x[0]) / interval_m * (1 + 1e-12)))
+    x = axis.x[0] + interval_m * np.arange(count + 1)
+    x = np.unique(np.concatenate([x[x < axis.x[-1] - 1e-9 * axis.span_m], [axis.x[-1]]]))
     fine = axis.resample(x)
     depth = np.interp(x, axis.x, section.depth_m)
     intra, extra = fine.intrados(depth), fine.extrados(depth)
-    numbers = np.column_stack([fine.x, fine.y, np.degrees(fine.theta), fine.arc_length, depth,
-                               intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
+    values = np.column_stack([fine.x, fine.y, np.degrees(fine.theta), fine.arc_length, depth,
+                              intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
     header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
               "extrados_x_m", "extrados_y_m"]
-    return _rows_csv(header, [list(range(fine.count))], numbers)
+    return _rows_csv(header, [list(range(fine.count))], values, SETTING_OUT_KINDS)
 
 
 CHECK_HEADER = ["check", "value", "limit", "unit", "utilisation", "combination", "state", "station", "x_m", "verdict",
@@ -370,9 +385,11 @@ def study_header(groups: list[str]) -> str:
 
 
 def study_line(row, groups: list[str]) -> str:
-    """One study row as a CSV line (no wall times: tables are identical whichever executor ran them)."""
+    """One study row as a CSV line (no wall times: tables are identical whichever executor ran them);
+    span, rise and depth to the millimetre, other numbers to six significant figures."""
     thrust = dict(row.thrust_kN)
-    cells = [row.index, row.span_m, row.rise_m, row.rise_over_span, row.depth_m, row.status, row.objective,
+    cells = [row.index, numbers.length(row.span_m), numbers.length(row.rise_m), row.rise_over_span,
+             numbers.length(row.depth_m), row.status, row.objective,
              row.objective_unit, row.peak_M_governing_kNm, row.peak_M_all_kNm, row.peak_M_state, row.max_thrust_kN,
              row.peak_N_kN, row.buckling_factor, row.length_m, row.volume_m3, row.weight_kN, row.worst_utilisation,
              row.worst_check, row.verdict, row.reason] + [thrust.get(g, math.nan) for g in groups]
