@@ -119,3 +119,15 @@ def test_buckling_of_a_fine_model_on_a_subset_of_stations_matches_the_full_model
     assert sub.critical_factor == pytest.approx(full.critical_factor, rel=1e-5)
     assert sub.modes.shape[1] == result.axis.count  # modes interpolated back to every station
     np.testing.assert_allclose(sub.modes[0][:, 1], full.modes[0][:, 1], atol=1e-3)
+
+
+def test_regression_a_load_a_subnormal_distance_from_a_springing_solves():
+    """Found by the property test above: a horizontal point load at x = 4e-323 m left only subnormal
+    numbers on the free degrees of freedom, and the displacement solve's backward error read 1.0."""
+    curve = Parabola(Chord(8.0), 2.0)
+    axis = Axis.from_curve(curve, place_stations(curve, 9))
+    section = _stiff_section(axis)
+    loads = case_station_loads(LoadCase("a", (PointLoad(4e-323, 0.0, 1.0),)), axis, section)
+    exact = three_hinged(axis, loads, 4)
+    frame = solve(build_frame(axis, section, SupportKind.THREE_HINGED, hinge_station=4), loads)
+    np.testing.assert_allclose(frame.reactions, exact.reactions, atol=AGREE_RTOL)
