@@ -21,6 +21,7 @@ from formfind.errors import FormFindingError
 from formfind.model.case import Case
 from formfind.model.geometry import Axis
 from formfind.model.loads import (
+    PointLoad,
     StationLoads,
     build_load_set,
     combine_density_rates,
@@ -65,6 +66,20 @@ def loads_move(case: Case) -> bool:
     """True if a governing load's densities change with the shape (`moves_with_shape`)."""
     used = _used_cases(case)
     return any(moves_with_shape(ld) for lc in case.cases if lc.name in used for ld in lc.loads)
+
+
+def kink_stations(case: Case, x: np.ndarray) -> tuple[int, ...]:
+    """Interior stations where a fixed point load of a governing case acts: a found axis may kink there
+    (the funicular polygon turns at a point load), so its tangents are fitted on either side."""
+    used = _used_cases(case)
+    span = float(x[-1] - x[0])
+    points = [ld.x_m for lc in case.cases if lc.name in used for ld in lc.loads if isinstance(ld, PointLoad)]
+    out = set()
+    for px in points:
+        i = int(np.argmin(np.abs(x - px)))
+        if 0 < i < x.size - 1 and abs(x[i] - px) <= 1e-9 * span:
+            out.add(i)
+    return tuple(sorted(out))
 
 
 def has_horizontal(loads: StationLoads) -> bool:

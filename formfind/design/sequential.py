@@ -37,6 +37,7 @@ from formfind.design.governing import (
     density_rates,
     exact_value,
     horizontal_resultant,
+    kink_stations,
     objective_weights,
     reported,
     tributary,
@@ -45,7 +46,7 @@ from formfind.design.program import ProgramData, ProgramSolution, smoothest_with
 from formfind.enums import Objective, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
-from formfind.model.geometry import Axis, PointSpline
+from formfind.model.geometry import Axis, axis_through
 from formfind.model.loads import StationLoads
 from formfind.model.section import Section
 
@@ -81,12 +82,6 @@ class Outcome:
     solution: ProgramSolution | None
     history: tuple[Iteration, ...]
     time_s: float
-
-
-def axis_through(x: np.ndarray, y: np.ndarray) -> Axis:
-    """The axis through given station ordinates, tangents from a not-a-knot cubic spline."""
-    curve = PointSpline(tuple(float(v) for v in x - x[0]), tuple(float(v) for v in y))
-    return Axis(x=x, y=np.asarray(y, dtype=float), theta=curve.angle(x - x[0]))
 
 
 def linearise(case: Case, axis: Axis, section: Section, response: Response, loads: StationLoads,
@@ -125,6 +120,7 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
     f = case.find
     x = axis.x
     y = axis.y.copy()
+    breaks = kink_stations(case, x)
     tolerance = f.tolerance_m if f.tolerance_m is not None else TOLERANCE_OF_SPAN * axis.span_m
     radius = f.step_limit_m if f.step_limit_m is not None else 0.25 * max(f.rise_max_m, 1e-3)
     largest = 4.0 * radius
@@ -157,7 +153,7 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
             if sol.y is None:
                 data, sol, restoring = open_data, certificate, True
         change = float(np.abs(sol.y - y).max())
-        candidate = axis_through(x, sol.y)
+        candidate = axis_through(x, sol.y, breaks)
         trial, trial_loads, trial_model = analyse_governing(case, candidate, section)
         value = exact_value(f.objective, trial, candidate, f.kern_fraction)
         residual = float(np.abs(data.moments(sol.y) - trial.M).max())
@@ -237,7 +233,7 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
         return axis, response, loads, elapsed
     for fraction in (1.0, 0.25):
         y_try = axis.y + fraction * (y_fair - axis.y)
-        candidate = axis_through(axis.x, y_try)
+        candidate = axis_through(axis.x, y_try, kink_stations(case, axis.x))
         trial, trial_loads, _ = analyse_governing(case, candidate, section)
         value = exact_value(f.objective, trial, candidate, f.kern_fraction)
         if value <= limit:

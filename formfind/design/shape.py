@@ -46,6 +46,7 @@ from formfind.design.governing import (
     governing_loads,
     has_horizontal,
     horizontal_resultant,
+    kink_stations,
     loads_move,
     objective_weights,
     reported,
@@ -53,11 +54,11 @@ from formfind.design.governing import (
 )
 from formfind.design.program import ProgramData, ProgramSolution, solve_program
 from formfind.design.separable import per_station_minimax
-from formfind.design.sequential import Iteration, Outcome, axis_through, search
+from formfind.design.sequential import Iteration, Outcome, search
 from formfind.enums import Objective, ShapeMethod, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
-from formfind.model.geometry import Axis
+from formfind.model.geometry import Axis, axis_through
 from formfind.model.loads import StationLoads
 from formfind.model.section import Section
 
@@ -266,7 +267,7 @@ def _solve_frozen(case: Case, axis: Axis, section: Section, limits: Limits, resp
                 raise FormFindingError(infeasible_message(limits, data.q, sol.status.value))
             y_new = sol.y
             elapsed += sol.solve_time_s
-        current = axis_through(axis.x, y_new)
+        current = axis_through(axis.x, y_new, kink_stations(case, axis.x))
         if not (limits.clearance_rows.size or limits.envelope_rows.size):
             break
         if np.abs(half_depth(section, current) - half).max() <= 1e-9 * axis.span_m:
@@ -279,7 +280,7 @@ def _exact(case: Case, axis: Axis, section: Section, limits: Limits) -> ShapeRes
     response, loads, _ = analyse_governing(case, axis, section)
     y_new, sol, elapsed = _solve_frozen(case, axis, section, limits, response, loads)
     model = _frozen_model(axis, loads, response, limits.crown)
-    found = axis_through(axis.x, y_new)
+    found = axis_through(axis.x, y_new, kink_stations(case, axis.x))
     checked, loads, _ = analyse_governing(case, found, section)
     residual = float(np.abs(model.moments(y_new) - checked.M).max())
     if residual > 1e-6 * max(float(np.abs(checked.M).max()), 1.0):
@@ -308,7 +309,7 @@ def _fixed_point(case: Case, axis: Axis, section: Section, limits: Limits) -> Sh
         elapsed += spent
         change = float(np.abs(y_new - axis.y).max())
         model = _frozen_model(axis, loads, response, limits.crown)
-        axis = axis_through(axis.x, y_new)
+        axis = axis_through(axis.x, y_new, kink_stations(case, axis.x))
         response, loads, _ = analyse_governing(case, axis, section)
         residual = float(np.abs(model.moments(y_new) - response.M).max())
         history.append(Iteration(number, exact_value(f.objective, response, axis, f.kern_fraction), change, residual))

@@ -349,6 +349,30 @@ class Axis:
         return Axis(x=x_new, y=spline(x_new), theta=theta)
 
 
+def axis_through(x: np.ndarray, y: np.ndarray, breaks: tuple[int, ...] = ()) -> Axis:
+    """The axis through station ordinates ``y`` at abscissae ``x``, its tangents from not-a-knot cubic
+    splines, one per stretch between ``breaks``.
+
+    A break is a station where the axis may kink (a funicular polygon turns at a point load): the
+    splines end there, so a kink does not make the spline overshoot at its neighbours, and the tangent
+    at the break bisects the two one-sided tangents. A stretch of two stations is straight.
+    """
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    ends = sorted({0, x.size - 1, *(int(b) for b in breaks if 0 < b < x.size - 1)})
+    theta = np.zeros(x.size)
+    seen = np.zeros(x.size, dtype=int)
+    for a, b in zip(ends[:-1], ends[1:], strict=True):
+        xs, ys = x[a:b + 1], y[a:b + 1]
+        if xs.size == 2:
+            piece = np.full(2, np.arctan2(ys[1] - ys[0], xs[1] - xs[0]))
+        else:
+            piece = PointSpline(tuple(float(v) for v in xs - xs[0]), tuple(float(v) for v in ys)).angle(xs - xs[0])
+        theta[a:b + 1] += piece
+        seen[a:b + 1] += 1
+    return Axis(x=x, y=y, theta=theta / seen)
+
+
 def place_stations(
     curve: Curve,
     count: int,
