@@ -86,7 +86,7 @@ def test_validate_reports_defaults(write_case, capsys):
     path = write_case(BASE_CASE)
     assert run_cli(["validate", str(path), "-v"]) == 0
     out = capsys.readouterr().out
-    assert "valid" in out and "stations.spacing = 'x'" in out
+    assert "valid" in out and "stations.spacing = x" in out and "find.kern_fraction = 0.333333" in out
 
 
 def test_keys_prints_the_reference(capsys):

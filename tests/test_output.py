@@ -82,13 +82,15 @@ def test_dxf_renders_to_a_non_blank_image(footbridge, tmp_path):
 def test_diagrams_are_not_blank(footbridge, tmp_path):
     import matplotlib.image
 
+    from formfind.output.package import figure_bytes
+
     case, result = footbridge
     axis = result.axis
-    ax = plots.plot_along_arch(axis, result.combinations.M[0], "M", "first combination")
-    paths = plots.save_figure(ax, tmp_path / "m")
-    image = matplotlib.image.imread(str(paths[0]))
+    ax = plots.plot_along_arch(axis, result.combinations.M[0], None, "M", "first combination", (100.0, 5.0))
+    data = figure_bytes(ax)
+    image = matplotlib.image.imread(io.BytesIO(data["png"]))
     assert image.std() > 0.01
-    assert paths[1].read_text().lstrip().startswith("<?xml") and "<svg" in paths[1].read_text()
+    assert data["svg"].decode().lstrip().startswith("<?xml") and "<svg" in data["svg"].decode()
     from formfind.analysis.engine import frame_model
     from formfind.analysis.frame import influence_lines
 

@@ -472,11 +472,15 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
         worst = min(collapse, key=lambda c: c.factor)
         need = settings.min_collapse_factor
         hinges = "; ".join(f"{h.x_m:.2f} m ({h.face})" for h in worst.hinges)
-        rows.append(CheckRow("thrust line: collapse factor", worst.factor, need, "-",
-                             need / worst.factor if worst.factor > 0 else np.inf, settings.collapse_case, worst.state,
-                             None, None, PASS if worst.factor >= need else FAIL,
-                             f"on the unfactored permanent cases; hinges at {hinges}" if hinges else
-                             "on the unfactored permanent cases"))
+        if worst.factor > 0 and np.isfinite(worst.factor):
+            util, note = need / worst.factor, "on the unfactored permanent cases"
+        elif worst.factor > 0:
+            util, note = 0.0, "on the unfactored permanent cases; no collapse of the live load at any factor"
+        else:
+            util, note = None, "no line of thrust fits the ring under the permanent cases alone: no utilisation"
+        rows.append(CheckRow("thrust line: collapse factor", worst.factor, need, "-", util, settings.collapse_case,
+                             worst.state, None, None, PASS if worst.factor >= need else FAIL,
+                             f"{note}; hinges at {hinges}" if hinges else note))
     return table, collapse, rows
 
 

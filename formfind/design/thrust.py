@@ -232,7 +232,7 @@ class Hinge:
     face: str  # "intrados" or "extrados": where the line of thrust touches the ring
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class CollapseResult:
     """The collapse load factor of a live load at one position.
 
@@ -242,12 +242,16 @@ class CollapseResult:
             zone (``inf`` if it exceeds ``NO_COLLAPSE``; 0 if the dead load alone has none).
         hinges: the joints where the line of thrust touches the ring at that factor.
         status: the LP's status.
+        moment_kNm, axial_kN: (joints,) M and N (just right of each joint) of the line of thrust at
+            collapse, or None where there is no finite collapse factor.
     """
 
     state: str
     factor: float
     hinges: tuple[Hinge, ...]
     status: str
+    moment_kNm: np.ndarray | None = None
+    axial_kN: np.ndarray | None = None
 
 
 class _CollapseProgram:
@@ -308,8 +312,13 @@ def collapse_factors(axis: Axis, dead: StationLoads, live: StationLoads, depth_m
             continue
         lam = float(program.lam.value)
         factor = float("inf") if lam >= 0.999 * NO_COLLAPSE else lam
-        out.append(CollapseResult(live.names[k], factor, _hinges(program, axis) if np.isfinite(factor) else (),
-                                  status))
+        if not np.isfinite(factor):
+            out.append(CollapseResult(live.names[k], factor, (), status))
+            continue
+        r = np.asarray(program.r.value, dtype=float)
+        moment = joints_dead.M[0] + joints_dead.A_M @ r + lam * joints_live.M[k]
+        axial = joints_dead.N[0] + joints_dead.A_N @ r + lam * joints_live.N[k]
+        out.append(CollapseResult(live.names[k], factor, _hinges(program, axis), status, moment, axial))
     return tuple(out)
 
 

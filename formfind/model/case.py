@@ -191,6 +191,19 @@ class FindSettings:
 
 
 @dataclass(frozen=True)
+class Document:
+    """Who and what the calculation is for (see `formfind.model.schema.CASE`): the drawing's title block
+    and the report's sign-off. Empty strings where not given; ``issue_date`` ISO (YYYY-MM-DD) or ""."""
+
+    project: str = ""
+    job_number: str = ""
+    revision: str = ""
+    drawn_by: str = ""
+    checked_by: str = ""
+    issue_date: str = ""
+
+
+@dataclass(frozen=True)
 class Case:
     """A validated case file.
 
@@ -216,6 +229,7 @@ class Case:
     study: StudySettings = StudySettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
+    document: Document = Document()
 
     @property
     def tie_EA_kN(self) -> float | None:
@@ -302,7 +316,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
             table = data[spec.header]
         out = schema.read_table(table, spec, file, spec.header)
         defaults.extend(
-            f"{spec.header}.{k.name} = {out[k.name].value if hasattr(out[k.name], 'value') else out[k.name]!r}"
+            f"{spec.header}.{k.name} = {schema.describe_value(out[k.name], k.unit)}"
             for k in spec.keys
             if k.name not in table and not k.required and k.default is not None
         )
@@ -354,6 +368,8 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),
         source=file,
         defaults_used=tuple(defaults),
+        document=Document(meta["project"], meta["job_number"], meta["revision"], meta["drawn_by"],
+                          meta["checked_by"], meta["issue_date"] or ""),
     )
 
 

@@ -37,13 +37,15 @@ REQUIRED = object()
 NAME_PATTERN = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.+-]{0,63}$")
 MAX_STATIONS = 20001
 MAX_LIST = 10000
+MAX_TEXT = 4000  # characters of a free-text value
+LINE = 120  # characters of a one-line value (title block fields)
 
 
 @dataclass(frozen=True)
 class Key:
     """One key of a table.
 
-    ``kind`` is one of: "number", "integer", "string", "name", "boolean", "numbers" (a list of
+    ``kind`` is one of: "number", "integer", "string", "name", "date", "boolean", "numbers" (a list of
     numbers), "names" (a list of strings), "factors" (an inline table of name = number), or an Enum
     class (a choice).
     """
@@ -87,8 +89,18 @@ CASE = Table(
     "What the case is called and what it describes.",
     (
         Key("name", "name", "Short name; used for the output folder. Letters, digits, _ . + -"),
-        Key("title", "string", "One-line title for reports.", default=""),
+        Key("title", "string", "One-line title for reports.", default="", maximum=LINE),
         Key("description", "string", "Free text describing the scenario.", default=""),
+        Key("project", "string", "Project name, for the drawing's title block and the report's sign-off.",
+            default="", maximum=LINE),
+        Key("job_number", "string", "Job or file number.", default="", maximum=LINE),
+        Key("revision", "string", "Revision of the calculation and drawing, e.g. A or P1.", default="",
+            maximum=LINE),
+        Key("drawn_by", "string", "Who prepared it (initials or name).", default="", maximum=LINE),
+        Key("checked_by", "string", "Who checked it; left blank for the checker to sign.", default="",
+            maximum=LINE),
+        Key("issue_date", "date", "Date of issue (2026-12-04); the outputs carry this date, not the day of the "
+            "run, so that a rerun gives the same bytes. Default: none shown.", default=None),
     ),
 )
 
@@ -499,9 +511,23 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
             raise _fail(file, path, f"expected a whole number, got {_describe(value)}")
         _range(float(value), file, path, key)
         return int(value)
+    if kind == "date":
+        import datetime
+
+        if isinstance(value, datetime.date) and not isinstance(value, datetime.datetime):
+            return value.isoformat()
+        if isinstance(value, str):
+            try:
+                return datetime.date.fromisoformat(value).isoformat()
+            except ValueError:
+                pass
+        raise _fail(file, path, f"expected a date such as 2026-12-04, got {_describe(value)}")
     if kind in ("string", "name"):
         if not isinstance(value, str):
             raise _fail(file, path, f"expected a string, got {_describe(value)}")
+        longest = int(key.maximum) if key.maximum is not None else MAX_TEXT
+        if len(value) > longest:
+            raise _fail(file, path, f"expected at most {longest} characters, got {len(value)}")
         if kind == "name" and not NAME_PATTERN.match(value):
             raise _fail(
                 file, path,
@@ -528,6 +554,24 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
         plain = Key(key.name, "number", key.doc)
         return tuple((str(k), _number(v, file, f"{path}.{k}", plain)) for k, v in value.items())
     raise ValueError(f"unknown key kind {kind!r}")  # a schema bug, not user input
+
+
+def describe_value(value: Any, unit: str = "") -> str:
+    """A key's value as a person reads it: six significant figures, true/false, names without quotes,
+    and the unit (the defaults a report lists)."""
+    if isinstance(value, Enum):
+        text = str(value.value)
+    elif isinstance(value, bool):
+        text = "true" if value else "false"
+    elif isinstance(value, float):
+        text = f"{value:.6g}"
+    elif isinstance(value, tuple | list):
+        text = "[" + ", ".join(describe_value(v) for v in value) + "]"
+    elif isinstance(value, str):
+        text = f'"{value}"'
+    else:
+        text = str(value)
+    return f"{text} {unit}" if unit and not isinstance(value, bool | str | Enum) else text
 
 
 def read_table(table: Any, spec: Table, file: str, path: str, extra: tuple[str, ...] = ()) -> dict[str, Any]:

@@ -8,20 +8,20 @@ it reads `ShapeResult` and `CaseAnalysis` (thrust lines come from `formfind.anal
 
 from __future__ import annotations
 
-import datetime
 import hashlib
 import io
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from formfind import __version__
 from formfind.analysis.engine import CaseAnalysis
-from formfind.analysis.response import envelopes, thrust_line
+from formfind.analysis.response import envelopes, extreme, thrust_line
 from formfind.design.shape import ShapeResult, governing_groups
 from formfind.enums import SupportKind
 from formfind.model.case import Case
-from formfind.output import files, plots, report, tables
+from formfind.output import files, numbers, plots, report, tables
 from formfind.output.dxf import DrawingContent, build_drawing
 
 MAX_THRUST_LINES = 4
@@ -30,11 +30,11 @@ MAX_THRUST_LINES = 4
 def figure_bytes(ax) -> dict[str, bytes]:
     """A figure as PNG and SVG bytes (SVG without a date, so reruns give the same bytes)."""
     fig = ax.figure
-    fig.tight_layout()
     out = {}
     for fmt in ("png", "svg"):
         buf = io.BytesIO()
-        fig.savefig(buf, format=fmt, metadata={"Date": None} if fmt == "svg" else None)
+        fig.savefig(buf, format=fmt, metadata={"Date": None} if fmt == "svg" else None, bbox_inches="tight",
+                    pad_inches=0.12)
         out[fmt] = buf.getvalue()
     return out
 
@@ -70,43 +70,94 @@ def drawing_bytes(case: Case, analysis: CaseAnalysis) -> bytes:
     return stream.getvalue().encode("utf-8")
 
 
-def figure_axes(case: Case, analysis: CaseAnalysis, checks=None) -> dict[str, object]:
-    """The diagrams as matplotlib Axes, by file stem (with a patterned load: its influence line of M
-    at the station where the pattern's moment is largest)."""
+@dataclass(frozen=True, eq=False)
+class Diagram:
+    """One figure of a run: its file stem, a caption in words, and the matplotlib Axes."""
+
+    stem: str
+    caption: str
+    ax: object
+
+
+def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
+    """The run's figures, in the order the report shows them, each with its caption.
+
+    Force diagrams along the arch show the state where the summary finds the largest value of their
+    effect, and label that value and place from the same numbers. With a patterned load, its influence
+    line of M at the station where the pattern bends most; for a no-tension ring, the ring at collapse.
+    """
     axis = analysis.axis
     response = analysis.combinations if analysis.combinations.count else analysis.cases
-    out: dict[str, object] = {}
-    out["fig-axis"] = plots.plot_axis(axis, analysis.section.depth_m, _thrust_lines(case, analysis),
-                                      case.find.clearance, case.find.envelope)
-    envs = envelopes(response)
-    worst = max(envs, key=lambda e: float(np.abs(np.concatenate([e.maximum[2], e.minimum[2]])).max()))
-    k = response.groups.index(worst.group)
-    out["fig-moment-along"] = plots.plot_along_arch(axis, response.M[k], "M", worst.group)
-    for stem, effect, arr in (("fig-axial-along", "N", response.N), ("fig-shear-along", "V", response.V)):
-        out[stem] = plots.plot_along_arch(axis, arr[k], effect, worst.group)
+    colour_of = plots.colours(response.groups)
+    hinge = case.hinge_station(axis) if case.supports.kind is SupportKind.THREE_HINGED else None
+    out: list[Diagram] = []
+    lines = _thrust_lines(case, analysis)
+    out.append(Diagram("fig-axis", "The axis, the rib and the thrust lines of the governing combinations "
+                       f"({', '.join(label for label, _ in lines) or 'none'}); equal scales.",
+                       plots.plot_axis(axis, analysis.section.depth_m, lines, case.find.clearance, case.find.envelope,
+                                       hinge, colour_of)))
+    for stem, effect in (("fig-moment-along", "M"), ("fig-axial-along", "N"), ("fig-shear-along", "V")):
+        peak = extreme(response, effect)
+        k = response.names.index(peak.state)
+        left = None if effect == "M" else getattr(response, f"{effect}_left")[k]
+        ax = plots.plot_along_arch(axis, getattr(response, effect)[k], left, effect, peak.state,
+                                   (peak.value, peak.x_m), colour_of[peak.group])
+        out.append(Diagram(stem, f"{plots.NAMES[effect][:1].upper()}{plots.NAMES[effect][1:]} along the arch in "
+                           f"{peak.state}, the state of its largest value ({numbers.for_reading(peak.value)} "
+                           f"{plots.UNITS[effect]} at x = {numbers.length(peak.x_m)} m); drawn normal to the axis, "
+                           "positive on the intrados side, to the scale of the bar.", ax))
+    shown = [e.group for e in _governing_envelopes(envelopes(response))]
+    for effect in ("M", "N", "V"):
+        out.append(Diagram(f"fig-envelope-{effect}", f"Envelopes of {plots.NAMES[effect]} against x: for each "
+                           "combination the largest (full line) and least (dashed) over its states, with a step "
+                           "at each point load" + (f"; the {len(shown)} combinations with the largest moments"
+                                                   if len(shown) < len(set(response.groups)) else "") + ".",
+                           plots.plot_envelopes(axis.x, response, shown, effect, colour_of)))
     if checks is not None and checks.pattern is not None:
         i = int(np.argmax(checks.pattern.maximum[2]))
-        out["fig-influence-M"] = plots.plot_influence_line(
-            axis.x, checks.pattern.influence_M[:, i], f"M at x = {axis.x[i]:.2f} m", "kNm")
-    for e, effect in enumerate(("N", "V", "M")):
-        ax = plots.new_axes()
-        for env in envs[:6]:
-            plots.plot_envelope(axis.x, env.maximum[e], env.minimum[e], effect, env.group, ax=ax)
-        out[f"fig-envelope-{effect}"] = ax
+        out.append(Diagram("fig-influence-M", f"Influence line of M at x = {numbers.length(axis.x[i])} m, where the "
+                           "patterned load bends the arch most: the load is placed where the line is adverse.",
+                           plots.plot_influence_line(axis.x, checks.pattern.influence_M[:, i],
+                                                     f"M at x = {axis.x[i]:.2f} m", "kNm")))
     if analysis.buckling:
         critical = min(analysis.buckling, key=lambda b: b.critical_factor)
         if critical.factors.size:
-            out["fig-buckling"] = plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
-                                                           critical.symmetry[0])
+            out.append(Diagram("fig-buckling", f"First in-plane buckling mode of {critical.group} (load factor "
+                               f"{numbers.for_reading(critical.critical_factor, 3)}, {critical.symmetry[0]}); the "
+                               "amplitude of a linear mode is arbitrary.",
+                               plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
+                                                        critical.symmetry[0], critical.group)))
+    if checks is not None and checks.collapse:
+        worst = min(checks.collapse, key=lambda c: c.factor)
+        if worst.moment_kNm is not None:
+            line = thrust_line(axis.x, axis.y, axis.theta, worst.moment_kNm, worst.axial_kN)
+            hinges = [(h.x_m, h.face) for h in worst.hinges]
+            out.append(Diagram("fig-collapse", f"The ring at collapse under {worst.state}: the line of thrust at "
+                               f"the collapse factor {numbers.for_reading(worst.factor, 3)} touches the faces at the "
+                               f"{len(hinges)} hinges of the mechanism.",
+                               plots.plot_collapse(axis, analysis.section.depth_m, line, hinges, worst.factor,
+                                                   worst.state)))
     return out
 
 
-def figure_files(case: Case, analysis: CaseAnalysis, axes: dict[str, object] | None = None) -> dict[str, bytes]:
+MAX_ENVELOPES = 6  # combinations drawn in one envelope figure: beyond it a figure is unreadable
+
+
+def _governing_envelopes(all_envelopes: list) -> list:
+    """At most ``MAX_ENVELOPES`` envelopes: those with the largest |M|, in their original order."""
+    if len(all_envelopes) <= MAX_ENVELOPES:
+        return all_envelopes
+    size = [float(np.abs(np.concatenate([e.maximum[2], e.minimum[2]])).max()) for e in all_envelopes]
+    keep = sorted(np.argsort(size)[::-1][:MAX_ENVELOPES])
+    return [all_envelopes[k] for k in keep]
+
+
+def figure_files(figures: list[Diagram]) -> dict[str, bytes]:
     """The diagrams as PNG and SVG bytes, by file name."""
     out: dict[str, bytes] = {}
-    for stem, ax in (axes or figure_axes(case, analysis)).items():
-        for fmt, data in figure_bytes(ax).items():
-            out[f"{stem}.{fmt}"] = data
+    for figure in figures:
+        for fmt, data in figure_bytes(figure.ax).items():
+            out[f"{figure.stem}.{fmt}"] = data
     return out
 
 
@@ -141,13 +192,12 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
                                                             case.outputs.setting_out_interval_m).encode()
         if drawings:
             out["axis.dxf"] = drawing_bytes(case, analysis)
-            axes = figure_axes(case, analysis, checks)
-            figures = figure_files(case, analysis, axes)
-            out.update(figures)
-            svgs = {name: data for name, data in figures.items() if name.endswith(".svg")}
-            today = datetime.date.today().isoformat()
-            out["report.html"] = report.report_html(case, shape, analysis, checks, svgs, today).encode("utf-8")
-            out["report.pdf"] = report.report_pdf(case, shape, analysis, checks, list(axes.values()), today)
+            figures = diagrams(case, analysis, checks)
+            rendered = figure_files(figures)
+            out.update(rendered)
+            captioned = [(f.stem, f.caption, rendered[f"{f.stem}.svg"], rendered[f"{f.stem}.png"]) for f in figures]
+            out["report.html"] = report.report_html(case, shape, analysis, checks, captioned).encode("utf-8")
+            out["report.pdf"] = report.report_pdf(case, shape, analysis, checks, captioned)
     return out
 
 
