@@ -15,7 +15,7 @@ from formfind.analysis.engine import analyse
 from formfind.enums import DrawingUnit
 from formfind.model.case import StationSettings, load_case
 from formfind.output import plots
-from formfind.output.dxf import LAYERS, DrawingContent, build_drawing
+from formfind.output.dxf import LAYERS, DrawingContent, build_drawing, drawing_text, overlap, text_box
 from formfind.output.package import build_files, write_package
 from formfind.output.tables import setting_out_csv
 from tests.conftest import ROOT
@@ -33,9 +33,7 @@ def footbridge():
 def _reload(doc):
     import ezdxf
 
-    stream = io.StringIO()
-    doc.write(stream)
-    return ezdxf.read(io.StringIO(stream.getvalue()))
+    return ezdxf.read(io.StringIO(drawing_text(doc)))
 
 
 @pytest.mark.parametrize(("unit", "scale", "insunits"), [(DrawingUnit.MM, 1000.0, 4), (DrawingUnit.M, 1.0, 6)])
@@ -154,3 +152,57 @@ def test_every_table_is_free_of_float_artefacts_negative_zero_and_non_finite_val
                 assert not re.fullmatch(r"-?\d+\.\d{10,}", cell), (table, cell)
                 assert not re.fullmatch(r"-0(\.0*)?", cell), (table, cell)
                 assert cell.lower() not in ("inf", "-inf", "nan"), (table, cell)
+
+
+@pytest.mark.parametrize("unit", [DrawingUnit.MM, DrawingUnit.M])
+def test_dxf_is_a_drawing_a_drafter_can_use_unchanged(footbridge, unit):
+    """Read back: audit clean; the text of every dimension is its measurement in the drawing unit (the
+    dimension style's scale is 1); extents set around the geometry; only the styles and line types
+    used; every layer with a lineweight; station labels at whole multiples of the interval, none at a
+    springing, no two label boxes overlapping; a sheet with the title block filled from [case]; and
+    the same bytes twice (common practice for CAD deliverables, no source)."""
+    import ezdxf
+    from dataclasses import replace as swap
+
+    from formfind.model.case import Document
+    from formfind.output.package import drawing_bytes
+
+    case, result = footbridge
+    case = swap(case, document=Document("River footpath", "J-1042", "P2", "AB", "CD", "2026-12-01"),
+                outputs=swap(case.outputs, drawing_unit=unit))
+    data = drawing_bytes(case, result)
+    assert data == drawing_bytes(case, result)
+    doc = ezdxf.read(io.StringIO(data.decode("utf-8")))
+    assert not doc.audit().has_errors
+    scale = 1000.0 if unit is DrawingUnit.MM else 1.0
+    decimals = 0 if unit is DrawingUnit.MM else 3
+    msp = doc.modelspace()
+    dims = msp.query("DIMENSION")
+    assert len(dims) == 2
+    for dim in dims:
+        block = doc.blocks.get(dim.dxf.geometry)
+        texts = [e.plain_text() for e in block if e.dxftype() == "MTEXT"]
+        assert texts == [f"{dim.get_measurement():.{decimals}f}"]
+    assert all(d.dxf.dimstyle == "FF_DIM" for d in dims)
+    assert [s.dxf.name for s in doc.styles] == ["Standard"]
+    assert {lt.dxf.name.upper() for lt in doc.linetypes} == {"BYBLOCK", "BYLAYER", "CONTINUOUS", "DASHED", "DASHDOT"}
+    assert {d.dxf.name for d in doc.dimstyles} == {"Standard", "FF_DIM"}
+    extmin, extmax = doc.header["$EXTMIN"], doc.header["$EXTMAX"]
+    axis = result.axis
+    assert extmin[0] <= 0.0 and extmax[0] >= axis.span_m * scale and extmax[1] >= axis.y.max() * scale
+    assert abs(extmin[0]) < 1e19 and abs(extmax[1]) < 1e19
+    assert all(layer.dxf.lineweight > 0 for layer in doc.layers if layer.dxf.name.startswith("FF_"))
+    station_labels = [e for e in msp.query("TEXT") if e.dxf.layer == "FF_STATIONS"]
+    xs = sorted(float(e.dxf.text.split("=")[1].split()[0]) for e in station_labels)
+    interval = case.outputs.station_label_interval_m
+    assert xs and all(abs(x / interval - round(x / interval)) < 1e-9 for x in xs) and 0.0 not in xs
+    boxes = [text_box(e.dxf.text, e.dxf.insert[0], e.dxf.insert[1], e.dxf.height, e.dxf.rotation)
+             for e in msp.query("TEXT")]
+    for i in range(len(boxes)):
+        for j in range(i + 1, len(boxes)):
+            assert not overlap(boxes[i], boxes[j])
+    sheet = doc.layouts.get("Sheet")
+    words = " ".join(e.dxf.text for e in sheet.query("TEXT"))
+    for value in ("River footpath", "J-1042", "P2", "AB", "CD", "2026-12-01", "1:"):
+        assert value in words
+    assert sheet.query("VIEWPORT")

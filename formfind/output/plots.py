@@ -93,7 +93,7 @@ def new_axes(width: float = 9.0, height: float = 4.6):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(width, height), dpi=110)
+    fig = Figure(figsize=(width, height), dpi=120)  # PNG: about 150 dpi across an A4 page
     FigureCanvasAgg(fig)
     ax = fig.add_subplot(1, 1, 1)
     ax.ticklabel_format(useOffset=False, style="plain")
@@ -114,23 +114,31 @@ def _frame_arch(ax, points: np.ndarray, span: float) -> None:
     ax.set_ylabel("y (m)")
     ax.grid(True, lw=0.3, color="#dddddd")
     fig = ax.figure
-    plot_width = 0.82 * fig.get_figwidth()
-    fig.set_figheight(float(np.clip(plot_width * height / width + 2.2, 3.0, 7.5)))
+    plot_width = fig.get_figwidth() - LEFT_IN - RIGHT_IN
+    fig.set_figheight(float(np.clip(plot_width * height / width + TOP_IN + BOTTOM_IN + 0.5, 2.8, 7.5)))
 
 
-LEGEND_GAP_IN = 0.48  # inches between the axes' lower edge and the legend: room for the x label
+TOP_IN, BOTTOM_IN, LEFT_IN, RIGHT_IN = 0.42, 0.52, 0.75, 0.25  # margins around the axes, inches
+LEGEND_ROW_IN = 0.2  # height of one legend row, inches
 
 
 def _legend_below(ax, ncol: int = 3, handles=None) -> None:
-    """The legend under the axes, a fixed distance below it whatever the axes' height."""
+    """The legend under the axes in rows of ``ncol``, with margins set in inches so that title, x label
+    and legend never overlap, in one drawing pass (no layout engine, no tight bounding box)."""
     if handles is None:
         handles, _ = ax.get_legend_handles_labels()
-    if not handles:
-        return
-    ax.apply_aspect()
-    height_in = max(ax.get_position().height * ax.figure.get_figheight(), 0.5)
-    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -LEGEND_GAP_IN / height_in), fontsize=7.5,
-              ncol=ncol, frameon=False)
+    fig = ax.figure
+    rows = -(-len(handles) // ncol) if handles else 0
+    place(fig, BOTTOM_IN + LEGEND_ROW_IN * rows + (0.05 if rows else 0.0))
+    if handles:
+        fig.legend(handles=handles, loc="lower center", bbox_to_anchor=(0.5, 0.01), fontsize=7.5, ncol=ncol,
+                   frameon=False)
+
+
+def place(fig, bottom_in: float = BOTTOM_IN, right_in: float = RIGHT_IN) -> None:
+    """Set the axes' margins in inches (the figure's size is already final)."""
+    w, h = fig.get_figwidth(), fig.get_figheight()
+    fig.subplots_adjust(left=LEFT_IN / w, right=1 - right_in / w, top=1 - TOP_IN / h, bottom=min(bottom_in / h, 0.6))
 
 
 def _rib(ax, axis: Axis, depth_m: np.ndarray) -> np.ndarray:
@@ -417,4 +425,5 @@ def plot_study_axes(axes, ratios: np.ndarray, ax=None):
     ax.set_ylabel("y / span (-)")
     ax.set_title("The found axes of every point with an axis, to the span's scale", fontsize=10)
     ax.grid(True, lw=0.3, color="#dddddd")
+    place(ax.figure)
     return ax

@@ -2,8 +2,9 @@
 
 `report_sections` builds the report once, as plain blocks (paragraphs, tables, lists, figures); the
 HTML (inline SVG, print-friendly) and the PDF (A4 portrait, ``page n of N``, a title and sign-off
-block, tables typeset with every column, the figures as vector drawings) are two renderings of the
-same blocks, so they hold the same content in the same order.
+block, tables typeset with every column, the figures as the PNG images written beside it, each
+rendered once) are two renderings of the same blocks, so they hold the same content in the same
+order.
 
 Sections, in order, each an HTML ``<section>`` with a fixed id (tests and readers rely on them):
 
@@ -19,8 +20,8 @@ Sections, in order, each an HTML ``<section>`` with a fixed id (tests and reader
     warnings    what the reader must not miss: failed checks, low buckling factors, loose certificates
     cautions    the standing cautions, in the report's one caution box
 
-The PDF is written with fpdf2 (pure Python; tables, page numbers and SVG figures as vector paths
-built in). Nothing here computes mechanics: it formats `ShapeResult`, `CaseAnalysis` and `CheckResult`.
+The PDF is written with fpdf2 (pure Python; tables and page numbers built in; its SVG import loses
+matplotlib's text, so the figures go in as PNG). Nothing here computes mechanics: it formats `ShapeResult`, `CaseAnalysis` and `CheckResult`.
 Nothing depends on the day of the run or the folder it ran in: the date shown is the case file's
 ``issue_date``, the case file is named by its file name and hash.
 """
@@ -493,15 +494,19 @@ def _pdf_block(pdf, block, width: float, heading) -> None:
             pdf.ln(4)
         pdf.ln(1.5)
     elif isinstance(block, Preformatted):
+        import textwrap
+
         pdf.set_font("mono", "", 6.3)
         pdf.set_fill_color(246, 246, 246)
-        pdf.multi_cell(width, 2.9, block.text, fill=True)
+        columns = int(width / pdf.get_string_width("M"))
+        for line in block.text.splitlines():  # one cell per line: the text needs no paragraph breaking
+            for piece in textwrap.wrap(line, columns, subsequent_indent="    ") or [""]:
+                pdf.cell(width, 2.9, piece, fill=True, new_x="LMARGIN", new_y="NEXT")
         pdf.ln(1.5)
     elif isinstance(block, Figure):
         if pdf.get_y() > pdf.h - 125:
             pdf.add_page()
-        svg = re.sub(rb"<metadata>.*?</metadata>", b"", block.svg, flags=re.S)  # fpdf2 reads no metadata
-        pdf.image(io.BytesIO(svg), x=pdf.l_margin, w=width)
+        pdf.image(io.BytesIO(block.png), x=pdf.l_margin, w=width)
         pdf.set_font("sans", "", 8.5)
         pdf.multi_cell(width, 4.4, f"Figure {block.number}. {block.caption}")
         pdf.ln(4)

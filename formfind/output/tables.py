@@ -312,17 +312,23 @@ def setting_out_csv(axis: Axis, section: SectionAlong, interval_m: float) -> str
     tangents. The abscissae are whole multiples of the interval (computed as k x interval, so no
     sum of steps drifts).
     """
+    rows = setting_out_rows(axis, section, interval_m)
+    header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
+              "extrados_x_m", "extrados_y_m"]
+    return _rows_csv(header, [list(range(rows.shape[0]))], rows[:, 1:], SETTING_OUT_KINDS)
+
+
+def setting_out_rows(axis: Axis, section: SectionAlong, interval_m: float) -> np.ndarray:
+    """The setting-out points (points, 10): index, x, y, theta (deg), arc length, depth, intrados x, y,
+    extrados x, y; m and degrees (see `setting_out_csv`)."""
     count = int(np.floor((axis.x[-1] - axis.x[0]) / interval_m * (1 + 1e-12)))
     x = axis.x[0] + interval_m * np.arange(count + 1)
     x = np.unique(np.concatenate([x[x < axis.x[-1] - 1e-9 * axis.span_m], [axis.x[-1]]]))
     fine = axis.resample(x)
     depth = np.interp(x, axis.x, section.depth_m)
     intra, extra = fine.intrados(depth), fine.extrados(depth)
-    values = np.column_stack([fine.x, fine.y, np.degrees(fine.theta), fine.arc_length, depth,
-                              intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
-    header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
-              "extrados_x_m", "extrados_y_m"]
-    return _rows_csv(header, [list(range(fine.count))], values, SETTING_OUT_KINDS)
+    return np.column_stack([np.arange(fine.count), fine.x, fine.y, np.degrees(fine.theta), fine.arc_length, depth,
+                            intra[:, 0], intra[:, 1], extra[:, 0], extra[:, 1]])
 
 
 CHECK_HEADER = ["check", "value", "limit", "unit", "utilisation", "combination", "state", "station", "x_m", "verdict",
