@@ -196,3 +196,54 @@ def test_pool_workers_run_one_thread_per_numerical_library_and_the_parent_is_lef
         seen = pool.submit(os.getenv, "OPENBLAS_NUM_THREADS").result()
     assert seen == "1"
     assert {name: os.environ.get(name) for name in THREAD_VARIABLES} == before
+
+
+HALF_SPAN = UNIFORM.replace("start_kN_m = 12.0", "start_kN_m = 20.0") + """
+[[cases]]
+name = "left"
+  [[cases.loads]]
+  type = "line"
+  from_x_m = 0.0
+  to_x_m = 10.0
+  start_kN_m = 8.0
+[[cases]]
+name = "right"
+  [[cases.loads]]
+  type = "line"
+  from_x_m = 10.0
+  to_x_m = 20.0
+  start_kN_m = 8.0
+[[combinations]]
+name = "L"
+factors = { deck = 1.0, left = 1.0 }
+[[combinations]]
+name = "R"
+factors = { deck = 1.0, right = 1.0 }
+"""
+
+
+def test_a_moment_constant_over_the_sweep_is_drawn_flat_and_its_pareto_front_is_one_point(tmp_path):
+    """Dead load plus live load on either half of a three-hinged arch: the least peak moment is
+    q L^2 / 64 whatever the rise (Hibbeler, *Structural Analysis*, three-hinged arches; from memory),
+    so the study's moment plot must be flat and say so, and the least thrust beats every other point."""
+    import numpy as np
+
+    from formfind.output import plots
+    from formfind.output.study_files import write_study
+
+    case = parse_case(tomllib.loads(HALF_SPAN), "half.toml")
+    rows = list(run_study(case, grid((20.0,), (0.1, 0.2, 0.3, 0.4))))
+    moments = np.array([r.peak_M_all_kNm for r in rows])
+    np.testing.assert_allclose(moments, 8.0 * 20.0**2 / 64, rtol=1e-6)
+    ax = plots.plot_study(rows, "moment")
+    line = ax.get_lines()[0]
+    assert np.ptp(line.get_ydata()) == 0.0 and "constant" in line.get_label()
+    assert "constant" in ax.get_title()
+    thrust = plots.rounded(np.array([r.max_thrust_kN for r in rows]))
+    front = pareto_front(thrust, plots.rounded(moments))
+    assert front.tolist() == [3]  # the highest arch: least thrust, the same moment
+    written, _ = write_study(tmp_path / "s", case, rows, overwrite=False)
+    names = {p.name for p in written}
+    assert {"study.html", "fig-study-axes.svg", "fig-study-pareto.png"} <= names
+    page = (tmp_path / "s" / "study.html").read_text()
+    assert page.count("<svg") == 6 and page.count("<tr") == len(rows) + 1 and "Cautions" in page

@@ -318,7 +318,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         defaults.extend(
             f"{spec.header}.{k.name} = {schema.describe_value(out[k.name], k.unit)}"
             for k in spec.keys
-            if k.name not in table and not k.required and k.default is not None
+            if k.name not in table and not k.required and k.default is not None and k.default != ""
         )
         return out
 
