@@ -182,17 +182,6 @@ def test_fuzzed_documents_give_a_case_or_a_case_error(path, value, extra):
         assert str(exc).startswith("fuzz.toml") and "\n" not in str(exc)
 
 
-def test_the_same_case_run_twice_gives_byte_identical_tables(tmp_path):
-    from formfind.cli import run_cli
-
-    for out in ("a", "b"):
-        assert run_cli(["run", str(ROOT / "cases" / "footbridge.toml"), "--out", str(tmp_path / out), "--stations",
-                        "41", "-q", "--no-buckling"]) == 0
-    for path in sorted((tmp_path / "a" / "footbridge").iterdir()):
-        if path.suffix in (".json", ".csv") and path.name != "manifest.json":
-            assert path.read_bytes() == (tmp_path / "b" / "footbridge" / path.name).read_bytes(), path.name
-
-
 def test_an_ill_conditioned_frame_is_warned_about(caplog):
     """A very fine mesh of a stocky rib drives the condition estimate past 1e12: a warning names it."""
     import logging

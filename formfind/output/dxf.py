@@ -390,6 +390,10 @@ def drawing_text(doc, issue_date: str = "") -> str:
 
     from ezdxf.tools.juliandate import juliandate
 
+    # the library gathers some CLASS definitions through a set, whose order changes from process to
+    # process: complete them first, then write them sorted
+    doc.classes.add_required_classes(doc.dxfversion)
+    doc.classes.classes = dict(sorted(doc.classes.classes.items()))
     with _fixed_metadata():
         stream = io.StringIO()
         doc.write(stream)

@@ -12,6 +12,7 @@ import io
 import json
 import math
 from enum import Enum
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -105,7 +106,7 @@ def analysis_json(analysis: CaseAnalysis) -> str:
         {
             "formfind_version": __version__,
             "case": analysis.case.name,
-            "source": analysis.case.source,
+            "source": Path(analysis.case.source).name if analysis.case.source else "",
             "caution": CAUTION,
             "sign_convention": SIGN_CONVENTION,
             "axis": {
