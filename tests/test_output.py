@@ -161,8 +161,9 @@ def test_dxf_is_a_drawing_a_drafter_can_use_unchanged(footbridge, unit):
     used; every layer with a lineweight; station labels at whole multiples of the interval, none at a
     springing, no two label boxes overlapping; a sheet with the title block filled from [case]; and
     the same bytes twice (common practice for CAD deliverables, no source)."""
-    import ezdxf
     from dataclasses import replace as swap
+
+    import ezdxf
 
     from formfind.model.case import Document
     from formfind.output.package import drawing_bytes
