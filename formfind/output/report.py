@@ -284,7 +284,7 @@ def _results(analysis: CaseAnalysis) -> tuple:
                          _num(factors.get(s.group), 3) if s.group in factors else _text("")])
     header = ["set", "name", "states", "thrust H kN", "peak M kNm", "at x m", "peak N kN", "at x m", "peak V kN",
               "at x m", "buckling factor"]
-    return (_plain_table(header, rows, widths=(1.1, 2.0, 0.8, 1.1, 1.1, 0.9, 1.1, 0.9, 1.1, 0.9, 1.1), small=True),)
+    return (_plain_table(header, rows, widths=(1.5, 2.0, 0.7, 1.1, 1.1, 0.9, 1.1, 0.9, 1.1, 0.9, 1.1), small=True),)
 
 
 def _verdicts(checks: CheckResult) -> tuple:
