@@ -17,6 +17,7 @@ import argparse
 import logging
 import os
 import sys
+import warnings
 from dataclasses import replace
 from pathlib import Path
 
@@ -93,6 +94,9 @@ def _parser() -> argparse.ArgumentParser:
 def run_cli(argv: list[str] | None = None) -> int:
     """Run formfind's command line; return the exit code."""
     logging.basicConfig(level=logging.WARNING, format="formfind: %(levelname)s: %(message)s")
+    # numerical warnings are not for the user's terminal: every result is checked for finiteness and
+    # verified, and what the user must know is said in words
+    warnings.simplefilter("ignore", RuntimeWarning)
     args = _parser().parse_args(argv)
     try:
         if args.command == "validate":
@@ -174,7 +178,7 @@ def _job(args: argparse.Namespace) -> int:
 
     case = _load(args)
     folder = Path(args.out) / files.safe_name(case.name)
-    files.prepare_folder(folder, [], args.overwrite)  # fail early on an unusable folder
+    files.check_destination(folder, [], args.overwrite)  # fail early on an unusable folder; create nothing
     shape = None
     axis = None
     if args.command in ("find", "run"):
@@ -362,3 +366,4 @@ def _print_summary(result) -> None:
     if result.buckling:
         print("buckling: factor on each combination at which the arch buckles in its plane "
               "(linear elastic; loads keep their direction unless the case says otherwise)")
+

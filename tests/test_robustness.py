@@ -63,7 +63,11 @@ def test_contradictory_constraints_exit_6_through_the_command_line(write_case, t
     assert not (tmp_path / "o" / "small").exists() or not any((tmp_path / "o" / "small").iterdir())
 
 
-def test_failure_in_the_middle_of_writing_leaves_no_partial_file(tmp_path, monkeypatch):
+def test_failure_in_the_middle_of_writing_leaves_the_earlier_set_whole(tmp_path, monkeypatch):
+    """A set is written whole beside the folder and swapped in one step: a failure on the fourth file
+    (a full disk) leaves every earlier output and its manifest as they were, and nothing beside."""
+    from formfind.errors import OutputError
+
     folder = tmp_path / "out"
     first = {f"f{i}.txt": f"first {i}".encode() for i in range(6)}
     write_package(folder, first, overwrite=False)
@@ -73,20 +77,40 @@ def test_failure_in_the_middle_of_writing_leaves_no_partial_file(tmp_path, monke
     def failing_fsync(fd):
         calls["n"] += 1
         if calls["n"] == 4:
-            raise OSError("disk full (injected)")
+            raise OSError(28, "No space left on device")  # ENOSPC, injected
         return original(fd)
 
     monkeypatch.setattr(os, "fsync", failing_fsync)
     second = {f"f{i}.txt": f"second {i}".encode() for i in range(6)}
-    with pytest.raises(OSError, match="injected"):
+    with pytest.raises(OutputError, match="disk is full"):
         write_package(folder, second, overwrite=True)
     monkeypatch.setattr(os, "fsync", original)
-    assert not list(folder.glob("*.part")) and not list(folder.glob(".*"))
-    contents = [(folder / f"f{i}.txt").read_text() for i in range(6)]
-    assert contents[:3] == ["second 0", "second 1", "second 2"]
-    assert contents[3:] == ["first 3", "first 4", "first 5"]  # earlier outputs intact
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]  # no staging folder left beside it
+    assert [(folder / f"f{i}.txt").read_text() for i in range(6)] == [f"first {i}" for i in range(6)]
     manifest = json.loads((folder / "manifest.json").read_text())  # still the first run's
     assert len(manifest["files"]) == 6
+
+
+def test_a_folder_where_an_output_file_goes_is_refused_with_exit_5(tmp_path):
+    """--overwrite over a folder named like an output file: a one-line refusal, exit 5, nothing lost."""
+    out = tmp_path / "out" / "small"
+    (out / "forces.csv").mkdir(parents=True)
+    (out / "forces.csv" / "keep.txt").write_text("mine")
+    case = tmp_path / "case.toml"
+    case.write_text(BASE_CASE, encoding="utf-8")
+    proc = run_formfind("run", str(case), "--out", str(tmp_path / "out"), "--overwrite", "-q")
+    assert proc.returncode == 5 and "is a folder" in proc.stderr and proc.stderr.count("\n") == 1
+    assert (out / "forces.csv" / "keep.txt").read_text() == "mine"
+
+
+def test_a_run_over_a_study_keeps_the_study_s_files(tmp_path):
+    """The set swap carries over what another command wrote into the folder (a study's table)."""
+    folder = tmp_path / "out"
+    folder.mkdir()
+    (folder / "study.csv").write_text("point\n0\n")
+    write_package(folder, {"a.txt": b"1"}, overwrite=True)
+    write_package(folder, {"b.txt": b"2"}, overwrite=True)
+    assert sorted(p.name for p in folder.iterdir()) == ["b.txt", "manifest.json", "study.csv"]  # a.txt was ours
 
 
 @pytest.mark.parametrize("name", ["../../escape", "a/b\\c", ".hidden", "x" * 200, ""])
@@ -206,3 +230,89 @@ def test_regression_fuzz_key_with_a_newline_stays_one_line():
     with pytest.raises(CaseError) as info:
         parse_case(document, "fuzz.toml")
     assert "\n" not in str(info.value) and "bad\\nkey" in str(info.value)
+
+
+def test_killing_a_run_at_random_moments_never_leaves_a_torn_set(tmp_path):
+    """kill -9 during `run --overwrite`, many times at random moments (seeded): the folder always
+    holds one whole set, every file its manifest lists with the right hash and nothing else; the next
+    run cleans what a killed one left beside it."""
+    import hashlib
+    import random
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    rng = random.Random(20261204)
+    variants = []
+    for k, load in enumerate((5.0, 7.5)):
+        path = tmp_path / f"case{k}.toml"
+        path.write_text(BASE_CASE.replace("start_kN_m = 5.0", f"start_kN_m = {load}"), encoding="utf-8")
+        variants.append(path)
+    out = tmp_path / "out"
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    command = [sys.executable, "-m", "formfind", "run", "--out", str(out), "--overwrite", "-q", "--stations", "31"]
+    subprocess.run(command[:4] + [str(variants[0])] + command[4:], env=env, check=True, capture_output=True)
+
+    def whole(folder):
+        manifest = json.loads((folder / "manifest.json").read_text())
+        listed = {e["name"]: e["sha256"] for e in manifest["files"]}
+        present = {p.name for p in folder.iterdir()} - {"manifest.json"}
+        assert present == set(listed), (present ^ set(listed))
+        for name, digest in listed.items():
+            assert hashlib.sha256((folder / name).read_bytes()).hexdigest() == digest, name
+
+    for attempt in range(8):
+        proc = subprocess.Popen(command[:4] + [str(variants[(attempt + 1) % 2])] + command[4:], env=env,
+                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        time.sleep(rng.uniform(0.3, 3.0))
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        whole(out / "small")
+    subprocess.run(command[:4] + [str(variants[0])] + command[4:], env=env, check=True, capture_output=True)
+    whole(out / "small")
+    assert sorted(p.name for p in out.iterdir()) == ["small"]  # leftovers of killed runs are gone
+
+
+def _slow_writer(folder: str, tag: str) -> None:  # runs in a child process that the test kills
+    import time as _time
+
+    from formfind.output import files as _files
+
+    original = _files._write_in
+
+    def slow(path, data):
+        _time.sleep(0.01)
+        original(path, data)
+
+    _files._write_in = slow
+    write_package(folder, {f"f{i:03d}.txt": f"{tag} {i}".encode() for i in range(60)}, overwrite=True)
+
+
+def test_killing_the_writer_itself_at_random_moments_never_leaves_a_torn_set(tmp_path):
+    """The write phase itself, slowed down and killed at random moments (seeded) many times."""
+    import hashlib
+    import multiprocessing
+    import random
+    import signal
+    import time
+
+    rng = random.Random(7)
+    folder = tmp_path / "out"
+    write_package(folder, {f"f{i:03d}.txt": f"start {i}".encode() for i in range(60)}, overwrite=False)
+    context = multiprocessing.get_context("fork")
+    for attempt in range(12):
+        child = context.Process(target=_slow_writer, args=(str(folder), f"run{attempt}"))
+        child.start()
+        time.sleep(rng.uniform(0.0, 0.9))
+        os.kill(child.pid, signal.SIGKILL)
+        child.join()
+        manifest = json.loads((folder / "manifest.json").read_text())
+        listed = {e["name"]: e["sha256"] for e in manifest["files"]}
+        assert {p.name for p in folder.iterdir()} - {"manifest.json"} == set(listed)
+        texts = {(folder / n).read_text().split()[0] for n in listed}
+        assert len(texts) == 1  # one run's files, never a mix
+        for name, digest in listed.items():
+            assert hashlib.sha256((folder / name).read_bytes()).hexdigest() == digest
+    write_package(folder, {"a.txt": b"done"}, overwrite=True)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]

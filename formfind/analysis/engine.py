@@ -8,6 +8,7 @@ combination.
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -22,6 +23,8 @@ from formfind.model.case import Case
 from formfind.model.geometry import Axis
 from formfind.model.loads import LoadSet, StationLoads, build_load_set
 from formfind.model.section import SectionAlong
+
+log = logging.getLogger(__name__)
 
 
 @dataclass(frozen=True, eq=False)
@@ -140,6 +143,10 @@ def analyse(
     if want_buckling and model:
         b_model, b_loads, coarse = _buckling_model(case, axis, section, model, loads)
         buckling = tuple(_to_stations(b, coarse, axis) for b in combination_buckling(case, b_model, b_loads, combos))
+        for b in buckling:
+            if b.critical_factor < 1.0:
+                log.warning("%s buckles at %.3g times its loads: the arch cannot carry this combination (its "
+                            "results do not hold)", b.group, b.critical_factor)
     return CaseAnalysis(
         case=case,
         axis=axis,

@@ -181,9 +181,7 @@ def _second_order(case: Case, analysis: CaseAnalysis, response: Response):
         return M, N, N_left, tuple(method), ratio, alpha
     beyond = [k for k in low if alpha[response.groups[k]] <= 1.0]
     usable = [k for k in low if k not in beyond]
-    for k in beyond:  # at or above the buckling load: no equilibrium, infinite moments
-        M[k] = np.where(M[k] == 0, 0.0, np.inf * np.sign(M[k]))
-        ratio[k] = np.inf
+    for k in beyond:  # at or above the buckling load: no equilibrium exists; first-order values, marked
         method[k] = "beyond buckling"
     solved: list[int] = []
     if usable and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None:
@@ -271,10 +269,13 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     if settings.patterned_load_kN_m is not None:
         pattern = pattern_envelope(case, analysis, settings.patterned_load_kN_m)
     rows: list[CheckRow] = []
-    used = sorted(set(method) - {"first-order"})
+    used = sorted(set(method) - {"first-order", "beyond buckling"})
     note = ""
     if used:
         note = f"second-order moments by {' and '.join(used)} where alpha < {settings.second_order_below:g}"
+    if "beyond buckling" in method:
+        note = "; ".join(t for t in (note, "some states are at or beyond their buckling load (alpha <= 1): no "
+                                           "equilibrium exists there and their first-order values do not hold") if t)
     if pattern is not None:
         rows += _pattern_rows(pattern, settings.patterned_load_kN_m)
     to_mpa = 1e-3
@@ -298,6 +299,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     for group, a in alpha.items():
         util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else None
         so = f"second-order by {_group_method(response, method, group)}" if a < settings.second_order_below else ""
+        if a <= 1.0:
+            so = "at or beyond its buckling load: no equilibrium exists under this combination"
         if not np.isfinite(a):
             so = "no compression to buckle under: no factor, no utilisation"
         rows.append(CheckRow("in-plane buckling factor", float(a) if np.isfinite(a) else float("inf"),

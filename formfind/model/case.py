@@ -13,6 +13,7 @@ Example:
 
 from __future__ import annotations
 
+import logging
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
@@ -64,6 +65,8 @@ from formfind.model.loads import (
     Temperature,
 )
 from formfind.model.section import KN_M2_PER_MPA, Section
+
+log = logging.getLogger(__name__)
 
 MAX_FILE_BYTES = 1_000_000
 MAX_TRAIN_POSITIONS = 5000
@@ -190,6 +193,11 @@ class FindSettings:
     optimality_gap: float = 1e-4
 
 
+HINGE_MARGIN_OF_SPAN = 0.01  # a crown hinge at least this fraction of the span from either springing
+MAX_SETTING_OUT_POINTS = 10_000  # setting-out table rows at most (the interval's lower bound)
+MAX_LABELS = 1_000  # labelled station ticks on the drawing at most
+
+
 @dataclass(frozen=True)
 class Document:
     """Who and what the calculation is for (see `formfind.model.schema.CASE`): the drawing's title block
@@ -276,18 +284,36 @@ def load_case(path: str | Path) -> Case:
         CaseError: if the file is missing, unreadable, too large, not UTF-8, not valid TOML, or
             invalid in any key.
     """
+    import os
+    import stat
+
     p = Path(path)
     file = str(path)
     try:
-        raw = p.read_bytes()
+        # open without blocking (a FIFO with no writer would wait for ever) and look before reading:
+        # only a regular file is read, and never past the size limit (/dev/zero is endless)
+        fd = os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except FileNotFoundError:
         raise CaseError(file, "", "file not found") from None
     except IsADirectoryError:
         raise CaseError(file, "", "expected a case file, got a directory") from None
     except OSError as exc:
         raise CaseError(file, "", f"cannot be read ({exc.strerror})") from None
+    try:
+        mode = os.fstat(fd).st_mode
+        if stat.S_ISDIR(mode):
+            raise CaseError(file, "", "expected a case file, got a directory")
+        if not stat.S_ISREG(mode):
+            raise CaseError(file, "", "expected a regular file, got a device, pipe or socket")
+        with os.fdopen(fd, "rb", closefd=False) as handle:
+            raw = handle.read(MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise CaseError(file, "", f"cannot be read ({exc.strerror})") from None
+    finally:
+        os.close(fd)
     if len(raw) > MAX_FILE_BYTES:
-        raise CaseError(file, "", f"file is {len(raw)} bytes; case files are limited to {MAX_FILE_BYTES} bytes")
+        raise CaseError(file, "", f"file is larger than {MAX_FILE_BYTES} bytes; case files are limited to "
+                        f"{MAX_FILE_BYTES} bytes")
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -296,11 +322,40 @@ def load_case(path: str | Path) -> Case:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise CaseError(file, "", f"not valid TOML: {exc}") from None
+    except RecursionError:
+        raise CaseError(file, "", "arrays or tables are nested too deep to read") from None
     return parse_case(data, file)
 
 
 def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
-    """Validate an already-parsed TOML document into a `Case`."""
+    """Validate an already-parsed TOML document into a `Case`.
+
+    Raises:
+        CaseError: if any table or key is missing, unknown, of the wrong type or out of range.
+    """
+    if not isinstance(data, dict):
+        raise CaseError(file, "", f"expected a TOML document (a table of tables), got {type(data).__name__}")
+    if _depth(data) > MAX_NESTING:
+        raise CaseError(file, "", f"arrays or tables are nested deeper than {MAX_NESTING} levels; a case file needs "
+                        "at most 4")
+    return _parse_case(data, file)
+
+
+MAX_NESTING = 8
+
+
+def _depth(value: Any, level: int = 0) -> int:
+    """How deep lists and tables nest (stops counting past ``MAX_NESTING``; never recurses further)."""
+    if level > MAX_NESTING:
+        return level
+    if isinstance(value, dict):
+        return max((_depth(v, level + 1) for v in value.values()), default=level + 1)
+    if isinstance(value, list):
+        return max((_depth(v, level + 1) for v in value), default=level + 1)
+    return level
+
+
+def _parse_case(data: dict[str, Any], file: str) -> Case:
     top_names = [t.header for t in schema.TOP_TABLES]
     for name in data:
         if name not in top_names:
@@ -335,6 +390,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     _limits(cases, combinations, geometry, file)
+    _warn_idle_fill(cases, geometry, file)
     find = _find(find_raw, geometry, rib, cases, combinations, file)
     return Case(
         name=meta["name"],
@@ -348,7 +404,7 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
         combinations=combinations,
         analysis=AnalysisSettings(**settings),
         find=find,
-        outputs=OutputSettings(**outputs_raw),
+        outputs=_outputs(outputs_raw, geometry, file),
         check=CheckSettings(
             compression_limit_kN_m2=None if check_raw["compression_limit_MPa"] is None
             else check_raw["compression_limit_MPa"] * KN_M2_PER_MPA,
@@ -407,14 +463,38 @@ def _geometry(g: dict[str, Any], file: str) -> Geometry:
     return geometry
 
 
+def _warn_idle_fill(cases: tuple[LoadCase, ...], geometry: Geometry, file: str) -> None:
+    """Say so when a fill's surface lies below every point of the arch: it then adds no load at all."""
+    lowest = min(geometry.springing_left_m, geometry.springing_right_m)
+    for case in cases:
+        for k, ld in enumerate(case.loads):
+            if isinstance(ld, FillLoad) and ld.surface_y_m is not None and ld.surface_y_m <= lowest:
+                log.warning("%s: case %r, load %d: the fill's surface (%g m) lies below the whole arch (lowest "
+                            "springing %g m): it adds no load", file, case.name, k, ld.surface_y_m, lowest)
+
+
+def _outputs(o: dict[str, Any], geometry: Geometry, file: str) -> OutputSettings:
+    """Output settings, their intervals bounded against the span so a drawing or table stays a size
+    a person can use."""
+    span = geometry.span_m
+    for key, most in (("setting_out_interval_m", MAX_SETTING_OUT_POINTS), ("station_label_interval_m", MAX_LABELS)):
+        if o[key] < span / most:
+            raise CaseError(file, f"outputs.{key}", f"expected at least {span / most:.4g} m (span / {most}: at most "
+                            f"{most} points), got {o[key]:g}")
+    return OutputSettings(**o)
+
+
 def _supports(s: dict[str, Any], geometry: Geometry, file: str) -> Supports:
     kind: SupportKind = s["kind"]
     span = geometry.span_m
     hinge = s["hinge_x_m"]
     if kind is SupportKind.THREE_HINGED:
-        hinge = 0.5 * span if hinge is None else hinge
-        if not 0.0 < hinge < span:
-            raise CaseError(file, "supports.hinge_x_m", f"expected a hinge strictly inside the span 0..{span:g} m, got {hinge:g}")
+        hinge = 0.5 * span if hinge is None else hinge  # the one place the midspan default is set
+        margin = HINGE_MARGIN_OF_SPAN * span
+        if not margin <= hinge <= span - margin:
+            raise CaseError(file, "supports.hinge_x_m", f"expected a hinge strictly inside the span, at least "
+                            f"{HINGE_MARGIN_OF_SPAN:.0%} of it from either springing ({margin:.4g}..{span - margin:.4g} "
+                            f"m; a hinge at a springing makes a two-hinged arch), got {hinge:g}")
     tie_e = None
     if kind is SupportKind.TIED:
         if s["tie_area_m2"] is None or s["tie_modulus_MPa"] is None:
@@ -460,9 +540,9 @@ def _load(table: Any, geometry: Geometry, file: str, path: str) -> Load:
     types = list(schema.LOAD_TYPES)
     if kind is None:
         raise CaseError(file, f"{path}.type", f"missing; expected one of {', '.join(types)}")
-    if kind not in schema.LOAD_TYPES:
+    if not isinstance(kind, str) or kind not in schema.LOAD_TYPES:
         hint = schema.suggest(kind, types) if isinstance(kind, str) else ""
-        raise CaseError(file, f"{path}.type", f"expected one of {', '.join(types)}, got {kind!r}{hint}")
+        raise CaseError(file, f"{path}.type", f"expected one of {', '.join(types)}, got {schema.describe(kind)}{hint}")
     v = schema.read_table(table, schema.LOAD_TYPES[kind], file, path, extra=("type",))
     span = geometry.span_m
     if kind == "point":
@@ -486,6 +566,12 @@ def _load(table: Any, geometry: Geometry, file: str, path: str) -> Load:
     if kind == "temperature":
         return Temperature(v["uniform_C"], v["difference_C"])
     if kind == "support_movement":
+        largest = schema.MAX_MOVEMENT_OF_SPAN * span
+        for key in ("spread_m", "settlement_left_m", "settlement_right_m"):
+            if abs(v[key]) > largest:
+                raise CaseError(file, f"{path}.{key}", f"expected a movement within +-{largest:.4g} m "
+                                f"({schema.MAX_MOVEMENT_OF_SPAN:.0%} of the span; beyond it linear theory no longer "
+                                f"holds), got {v[key]:g}")
         return SupportMovement(v["spread_m"], v["settlement_left_m"], v["settlement_right_m"],
                                v["rotation_left_rad"], v["rotation_right_rad"])
     offsets, weights = v["offsets_m"], v["loads_kN"]

@@ -38,6 +38,12 @@ NAME_PATTERN = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.+-]{0,63}$")
 MAX_STATIONS = 20001
 MAX_LIST = 10000
 MAX_TEXT = 4000  # characters of a free-text value
+MAX_MAGNITUDE = 1e9  # no number in a case file is larger in magnitude (in its key's unit)
+MAX_FACTOR = 1000.0  # a load factor beyond this is not a load factor
+MAX_SPAN_M = 10_000.0  # the longest span formfind accepts (the longest arches built are near 600 m)
+MAX_LOAD = 1e7  # kN, kN/m or kPa: beyond this no structure is meant
+MAX_ROTATION = 0.02  # rad: imposed springing rotations beyond this leave linear theory
+MAX_MOVEMENT_OF_SPAN = 0.02  # imposed springing movements beyond this fraction of the span, likewise
 LINE = 120  # characters of a one-line value (title block fields)
 
 
@@ -108,7 +114,8 @@ GEOMETRY = Table(
     "geometry",
     "Span, rise, springing levels and the family of the given axis.",
     (
-        Key("span_m", "number", "Horizontal distance between the springings.", "m", positive=True),
+        Key("span_m", "number", "Horizontal distance between the springings, up to 10 km.", "m", positive=True,
+            maximum=MAX_SPAN_M),
         Key(
             "rise_m",
             "number",
@@ -376,8 +383,10 @@ LOAD_TYPES: dict[str, Table] = {
         "A concentrated force on the axis.",
         (
             Key("x_m", "number", "Abscissa of the load, 0..span.", "m"),
-            Key("down_kN", "number", "Vertical component, downward positive.", "kN", default=0.0),
-            Key("right_kN", "number", "Horizontal component, positive to the right.", "kN", default=0.0),
+            Key("down_kN", "number", "Vertical component, downward positive.", "kN", default=0.0,
+                minimum=-MAX_LOAD, maximum=MAX_LOAD),
+            Key("right_kN", "number", "Horizontal component, positive to the right.", "kN", default=0.0,
+                minimum=-MAX_LOAD, maximum=MAX_LOAD),
         ),
     ),
     "line": Table(
@@ -386,8 +395,9 @@ LOAD_TYPES: dict[str, Table] = {
         (
             _X_FROM,
             _X_TO,
-            Key("start_kN_m", "number", "Intensity at from_x_m.", "kN/m"),
-            Key("end_kN_m", "number", "Intensity at to_x_m; defaults to start_kN_m.", "kN/m", default=None),
+            Key("start_kN_m", "number", "Intensity at from_x_m.", "kN/m", minimum=-MAX_LOAD, maximum=MAX_LOAD),
+            Key("end_kN_m", "number", "Intensity at to_x_m; defaults to start_kN_m.", "kN/m", default=None,
+                minimum=-MAX_LOAD, maximum=MAX_LOAD),
             Key("direction", LoadDirection, "down: vertical, downward positive; right: horizontal.",
                 default=LoadDirection.DOWN.value),
             Key("per", Projection, "Intensity per metre of horizontal projection, vertical projection, "
@@ -397,34 +407,39 @@ LOAD_TYPES: dict[str, Table] = {
     "self_weight": Table(
         "cases.loads (type = \"self_weight\")",
         "The rib's own weight: unit_weight_kN_m3 x area per metre of axis.",
-        (Key("factor", "number", "Multiplier on the self-weight.", default=1.0),),
+        (Key("factor", "number", "Multiplier on the self-weight.", default=1.0, minimum=-MAX_FACTOR,
+             maximum=MAX_FACTOR),),
     ),
     "pressure": Table(
         "cases.loads (type = \"pressure\")",
         "A force normal to the axis per metre of axis, positive pushing from extrados to intrados.",
-        (Key("inward_kN_m", "number", "Intensity.", "kN/m"), _X_FROM, _X_TO),
+        (Key("inward_kN_m", "number", "Intensity.", "kN/m", minimum=-MAX_LOAD, maximum=MAX_LOAD), _X_FROM, _X_TO),
     ),
     "fill": Table(
         "cases.loads (type = \"fill\")",
         "Vertical fill load growing with depth: width x (unit weight x depth + surcharge). "
         "Give exactly one of surface_y_m and cover_m.",
         (
-            Key("unit_weight_kN_m3", "number", "Weight density of the fill.", "kN/m3", positive=True),
+            Key("unit_weight_kN_m3", "number", "Weight density of the fill.", "kN/m3", positive=True,
+                maximum=1000.0),
             Key("width_m", "number", "Breadth of fill carried by the rib.", "m", default=1.0, positive=True),
             Key("surface_y_m", "number", "Level of the fill surface.", "m", default=None),
             Key("cover_m", "number", "Depth of fill above the reference line at the crown.", "m",
                 default=None, minimum=0.0),
             Key("measured_to", FillReference, "Depth measured down to the extrados or the axis.",
                 default=FillReference.EXTRADOS.value),
-            Key("surcharge_kPa", "number", "Uniform load on the fill surface.", "kPa", default=0.0),
+            Key("surcharge_kPa", "number", "Uniform load on the fill surface.", "kPa", default=0.0,
+                minimum=-MAX_LOAD, maximum=MAX_LOAD),
         ),
     ),
     "temperature": Table(
         "cases.loads (type = \"temperature\")",
         "Temperature change of the rib (forces only in indeterminate arches).",
         (
-            Key("uniform_C", "number", "Uniform change.", "degC", default=0.0),
-            Key("difference_C", "number", "Extrados minus intrados temperature.", "degC", default=0.0),
+            Key("uniform_C", "number", "Uniform change, within +-200 degC.", "degC", default=0.0,
+                minimum=-200.0, maximum=200.0),
+            Key("difference_C", "number", "Extrados minus intrados temperature, within +-200 degC.", "degC",
+                default=0.0, minimum=-200.0, maximum=200.0),
         ),
     ),
     "support_movement": Table(
@@ -434,10 +449,10 @@ LOAD_TYPES: dict[str, Table] = {
             Key("spread_m", "number", "Increase of the span (right springing moves right).", "m", default=0.0),
             Key("settlement_left_m", "number", "Downward movement of the left springing.", "m", default=0.0),
             Key("settlement_right_m", "number", "Downward movement of the right springing.", "m", default=0.0),
-            Key("rotation_left_rad", "number", "Anticlockwise rotation of a fixed left springing.", "rad",
-                default=0.0),
-            Key("rotation_right_rad", "number", "Anticlockwise rotation of a fixed right springing.", "rad",
-                default=0.0),
+            Key("rotation_left_rad", "number", "Anticlockwise rotation of a fixed left springing, within "
+                "+-0.02 rad (linear theory).", "rad", default=0.0, minimum=-MAX_ROTATION, maximum=MAX_ROTATION),
+            Key("rotation_right_rad", "number", "Anticlockwise rotation of a fixed right springing, within "
+                "+-0.02 rad (linear theory).", "rad", default=0.0, minimum=-MAX_ROTATION, maximum=MAX_ROTATION),
         ),
     ),
     "axle_train": Table(
@@ -445,7 +460,7 @@ LOAD_TYPES: dict[str, Table] = {
         "Vertical axle loads moved across the span; every position is one load state.",
         (
             Key("offsets_m", "numbers", "Distance of each axle behind the leading one (first 0).", "m"),
-            Key("loads_kN", "numbers", "Axle loads, downward.", "kN"),
+            Key("loads_kN", "numbers", "Axle loads, downward.", "kN", minimum=-MAX_LOAD, maximum=MAX_LOAD),
             Key("step_m", "number", "Step of the leading axle between positions.", "m", positive=True),
             Key("direction", TrainDirection, "Direction of travel.", default=TrainDirection.BOTH.value),
         ),
@@ -468,10 +483,16 @@ def suggest(name: str, allowed: list[str]) -> str:
 
 def _number(value: Any, file: str, path: str, key: Key) -> float:
     if isinstance(value, bool) or not isinstance(value, int | float):
-        raise _fail(file, path, f"expected a number{_unit(key)}, got {_describe(value)}")
+        raise _fail(file, path, f"expected a number{_unit(key)}, got {describe(value)}")
+    if isinstance(value, int) and abs(value) > MAX_MAGNITUDE:  # also too large for a float at all
+        raise _fail(file, path, f"expected a number of magnitude at most {MAX_MAGNITUDE:g}{_unit(key)}, got "
+                                f"{describe(value)}")
     value = float(value)
     if not math.isfinite(value):
         raise _fail(file, path, f"expected a finite number{_unit(key)}, got {value}")
+    if abs(value) > MAX_MAGNITUDE:
+        raise _fail(file, path, f"expected a number of magnitude at most {MAX_MAGNITUDE:g}{_unit(key)}, got "
+                                f"{value:g}")
     _range(value, file, path, key)
     return value
 
@@ -489,8 +510,18 @@ def _unit(key: Key) -> str:
     return f" in {key.unit}" if key.unit else ""
 
 
-def _describe(value: Any) -> str:
-    text = repr(value)
+def describe(value: Any) -> str:
+    """A short account of a value for a message: never a huge repr (an integer of thousands of digits,
+    a list nested thousands deep)."""
+    if isinstance(value, bool):
+        return f"bool {value}"
+    if isinstance(value, int) and abs(value) >= 10**15:
+        return f"an integer of about {int(value.bit_length() * 0.30103) + 1} digits"
+    if isinstance(value, list):
+        return f"a list of {len(value)} item(s)"
+    if isinstance(value, dict):
+        return f"a table of {len(value)} key(s)"
+    text = repr(value[:41] if isinstance(value, str) else value)
     if len(text) > 40:
         text = text[:37] + "..."
     return f"{type(value).__name__} {text}"
@@ -502,13 +533,16 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
         allowed = [m.value for m in kind]
         if not isinstance(value, str) or value not in allowed:
             hint = suggest(value, allowed) if isinstance(value, str) else ""
-            raise _fail(file, path, f"expected one of {_choice_doc(kind)}, got {_describe(value)}{hint}")
+            raise _fail(file, path, f"expected one of {_choice_doc(kind)}, got {describe(value)}{hint}")
         return kind(value)
     if kind == "number":
         return _number(value, file, path, key)
     if kind == "integer":
         if isinstance(value, bool) or not isinstance(value, int):
-            raise _fail(file, path, f"expected a whole number, got {_describe(value)}")
+            raise _fail(file, path, f"expected a whole number, got {describe(value)}")
+        if abs(value) > MAX_MAGNITUDE:
+            raise _fail(file, path, f"expected a whole number of magnitude at most {MAX_MAGNITUDE:g}, got "
+                                    f"{describe(value)}")
         _range(float(value), file, path, key)
         return int(value)
     if kind == "date":
@@ -521,10 +555,10 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
                 return datetime.date.fromisoformat(value).isoformat()
             except ValueError:
                 pass
-        raise _fail(file, path, f"expected a date such as 2026-12-04, got {_describe(value)}")
+        raise _fail(file, path, f"expected a date such as 2026-12-04, got {describe(value)}")
     if kind in ("string", "name"):
         if not isinstance(value, str):
-            raise _fail(file, path, f"expected a string, got {_describe(value)}")
+            raise _fail(file, path, f"expected a string, got {describe(value)}")
         longest = int(key.maximum) if key.maximum is not None else MAX_TEXT
         if len(value) > longest:
             raise _fail(file, path, f"expected at most {longest} characters, got {len(value)}")
@@ -536,22 +570,22 @@ def _convert(value: Any, key: Key, file: str, path: str) -> Any:
         return value
     if kind == "boolean":
         if not isinstance(value, bool):
-            raise _fail(file, path, f"expected true or false, got {_describe(value)}")
+            raise _fail(file, path, f"expected true or false, got {describe(value)}")
         return value
     if kind == "names":
         if not isinstance(value, list) or not value or not all(isinstance(v, str) for v in value):
-            raise _fail(file, path, f"expected a non-empty list of names, got {_describe(value)}")
+            raise _fail(file, path, f"expected a non-empty list of names, got {describe(value)}")
         return tuple(value)
     if kind == "numbers":
         if not isinstance(value, list) or not value:
-            raise _fail(file, path, f"expected a non-empty list of numbers{_unit(key)}, got {_describe(value)}")
+            raise _fail(file, path, f"expected a non-empty list of numbers{_unit(key)}, got {describe(value)}")
         if len(value) > MAX_LIST:
             raise _fail(file, path, f"expected at most {MAX_LIST} numbers, got {len(value)}")
         return tuple(_number(v, file, f"{path}[{i}]", key) for i, v in enumerate(value))
     if kind == "factors":
         if not isinstance(value, dict) or not value:
-            raise _fail(file, path, f"expected an inline table of case name = factor, got {_describe(value)}")
-        plain = Key(key.name, "number", key.doc)
+            raise _fail(file, path, f"expected an inline table of case name = factor, got {describe(value)}")
+        plain = Key(key.name, "number", key.doc, minimum=-MAX_FACTOR, maximum=MAX_FACTOR)
         return tuple((str(k), _number(v, file, f"{path}.{k}", plain)) for k, v in value.items())
     raise ValueError(f"unknown key kind {kind!r}")  # a schema bug, not user input
 
@@ -584,7 +618,7 @@ def read_table(table: Any, spec: Table, file: str, path: str, extra: tuple[str, 
             wrong type, a value out of range, or a key that does not apply (``Key.when``).
     """
     if not isinstance(table, dict):
-        raise _fail(file, path, f"expected a table, got {_describe(table)}")
+        raise _fail(file, path, f"expected a table, got {describe(table)}")
     allowed = [k.name for k in spec.keys] + list(extra)
     for name in table:
         if name not in allowed:

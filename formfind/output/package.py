@@ -210,14 +210,28 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
 
 
 def write_package(folder: Path, contents: dict[str, bytes], overwrite: bool) -> list[Path]:
-    """Write every file atomically, then ``manifest.json``; refuse to overwrite unless asked."""
-    names = sorted(contents) + ["manifest.json"]
-    files.prepare_folder(folder, names, overwrite)
-    written = []
-    manifest = {"formfind_version": __version__, "files": []}
-    for name in sorted(contents):
-        data = contents[name]
-        written.append(files.write_bytes(folder / name, data))
-        manifest["files"].append({"name": name, "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()})
-    written.append(files.write_text(folder / "manifest.json", tables.dumps(manifest, indent=2)))
-    return written
+    """Write every file and ``manifest.json`` (each file with its size and SHA-256) as one set that
+    replaces an earlier run's set in one step (`files.write_set`); refuse to overwrite unless asked.
+    Files of an earlier run that this run does not write (its manifest names them) are dropped; other
+    files in the folder (a study's) stay.
+
+    Raises:
+        OutputError: if the folder cannot take the files or writing them fails.
+    """
+    manifest = {"formfind_version": __version__, "files": [
+        {"name": name, "bytes": len(data), "sha256": hashlib.sha256(data).hexdigest()}
+        for name, data in sorted(contents.items())]}
+    full = dict(contents)
+    full["manifest.json"] = tables.dumps(manifest, indent=2).encode("utf-8")
+    return files.write_set(folder, full, overwrite, _earlier_outputs(folder))
+
+
+def _earlier_outputs(folder: Path) -> set[str]:
+    """The names an earlier run's manifest lists (it and the manifest are ours to replace)."""
+    import json
+
+    try:
+        data = json.loads((Path(folder) / "manifest.json").read_text(encoding="utf-8"))
+        return {str(entry["name"]) for entry in data["files"]} | {"manifest.json"}
+    except (OSError, ValueError, KeyError, TypeError):
+        return {"manifest.json"}
