@@ -131,3 +131,19 @@ def test_regression_a_load_a_subnormal_distance_from_a_springing_solves():
     exact = three_hinged(axis, loads, 4)
     frame = solve(build_frame(axis, section, SupportKind.THREE_HINGED, hinge_station=4), loads)
     np.testing.assert_allclose(frame.reactions, exact.reactions, atol=AGREE_RTOL)
+
+
+def test_a_settlement_of_a_tied_arch_s_roller_moves_it_without_forces():
+    """A pin and a roller with a tie between them hold the arch statically determinately from outside:
+    settling the roller turns the whole arch and tie as one body, so no force arises (statics; common
+    practice, no source). It used to fail the equilibrium check by rounding alone."""
+    from formfind.model.loads import SupportMovement
+
+    curve = Parabola(Chord(20.0), 4.0)
+    axis = Axis.from_curve(curve, place_stations(curve, 41))
+    section = Section(0.32, 0.017, 0.8, 3e7).at(axis)
+    model = build_frame(axis, section, SupportKind.TIED, tie_EA_kN=2e6)
+    loads = case_station_loads(LoadCase("s", (SupportMovement(settlement_right_m=0.02),)), axis, section)
+    response = solve(model, loads)
+    assert np.abs(response.M).max() < 1e-6 and np.abs(response.tie_force).max() < 1e-6
+    assert np.abs(response.reactions).max() < 1e-6

@@ -113,3 +113,16 @@ def test_point_spline_passes_through_its_points():
     np.testing.assert_allclose(curve.ordinate(np.array(xs)), ys, atol=1e-12)
     with pytest.raises(ValueError):
         PointSpline((0.0, 3.0, 2.0), (0.0, 1.0, 0.0))
+
+
+def test_a_tapered_rib_on_a_symmetric_axis_is_symmetric_without_a_station_at_midspan():
+    """The taper runs from the geometric crown (the top of the parabola through the highest stations),
+    not from whichever of two equal top stations rounding picked."""
+    from formfind.enums import SectionVariation
+    from formfind.model.section import Section, crown_abscissa
+
+    axis = Axis.from_curve(Parabola(Chord(20.0), 4.0), np.linspace(0.0, 20.0, 40))  # no station at 10 m
+    assert crown_abscissa(axis) == pytest.approx(10.0, abs=1e-12)
+    rib = Section(0.4, 0.02, 0.8, 3e7, width_m=0.5, variation=SectionVariation.TAPERED, springing_depth_m=1.2)
+    depth = rib.at(axis).depth_m
+    np.testing.assert_allclose(depth, depth[::-1], atol=1e-12)

@@ -8,8 +8,10 @@ hinge of a three-hinged arch is a rotation release (the element right of the hin
 rotation); a tied arch has a pin at the left, a roller at the right and an axial tie between the
 springings.
 
-Loads. Distributed densities and point loads enter as consistent (work-equivalent) nodal loads of the
-Euler-Bernoulli element, so nodal displacements and reactions are exact for a prismatic polygon;
+Loads. Distributed densities and point loads enter as consistent (work-equivalent) nodal loads made
+with the element's own shapes (the cubic Hermite shapes, or with shear deformation the shapes that
+solve the shear-flexible beam exactly), so nodal displacements and reactions are exact for a
+prismatic polygon;
 uniform temperature and a temperature difference across the depth enter as initial strains; support
 movements as prescribed displacements.
 
@@ -397,8 +399,35 @@ def _point_element(axis: Axis, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return e, np.clip(t, 0.0, 1.0)
 
 
+_GAUSS3_T = 0.5 + 0.5 * np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])  # 3-point Gauss on [0, 1]: exact to degree 5
+_GAUSS3_W = np.array([5.0, 8.0, 5.0]) / 18.0
+
+
+def _shear_ratio(model: FrameModel) -> np.ndarray:
+    """phi = 12 EI / (G As L^2) per element where shear deformation is modelled, else 0."""
+    if not model.shear_deformation:
+        return np.zeros_like(model.length)
+    return 12.0 * model.EI / (model.GAs * model.length**2)
+
+
+def transverse_shapes(t: np.ndarray, length: np.ndarray, phi: np.ndarray) -> np.ndarray:
+    """The element's transverse displacement shapes (..., 4) at parameter t in [0, 1]: end a's
+    deflection and rotation, end b's deflection and rotation. They solve the shear-flexible
+    (Timoshenko) beam exactly, so loads made work-equivalent with them give exact nodal displacements
+    (phi = 12 EI / (G As L^2); phi = 0: the cubic Hermite shapes of the ordinary beam)."""
+    t = np.asarray(t, dtype=float)
+    k = 1.0 / (1.0 + phi)
+    return np.stack([
+        k * (1.0 - 3.0 * t**2 + 2.0 * t**3 + phi * (1.0 - t)),
+        k * length * (t - 2.0 * t**2 + t**3 + 0.5 * phi * (t - t**2)),
+        k * (3.0 * t**2 - 2.0 * t**3 + phi * t),
+        k * length * (-(t**2) + t**3 + 0.5 * phi * (t**2 - t)),
+    ], axis=-1)
+
+
 def _distributed_local(model: FrameModel, dist: np.ndarray) -> np.ndarray:
-    """Local consistent end loads (states, elements, 6) of element densities (states, elements, 2, 2)."""
+    """Local consistent end loads (states, elements, 6) of element densities (states, elements, 2, 2),
+    work-equivalent with the element's own shapes (exact nodal displacements, shear deformation or not)."""
     L, c, s = model.length, model.cos, model.sin
     qa = dist[:, :, 0, :] / L[None, :, None]  # kN per unit t -> kN per metre of chord
     qb = dist[:, :, 1, :] / L[None, :, None]
@@ -407,10 +436,21 @@ def _distributed_local(model: FrameModel, dist: np.ndarray) -> np.ndarray:
     local = np.empty(dist.shape[:2] + (6,))
     local[..., 0] = L * (2 * pa + pb) / 6
     local[..., 3] = L * (pa + 2 * pb) / 6
-    local[..., 1] = L * (7 * wa + 3 * wb) / 20
-    local[..., 2] = L**2 * (3 * wa + 2 * wb) / 60
-    local[..., 4] = L * (3 * wa + 7 * wb) / 20
-    local[..., 5] = -(L**2) * (2 * wa + 3 * wb) / 60
+    phi = _shear_ratio(model)
+    if not np.any(phi):
+        local[..., 1] = L * (7 * wa + 3 * wb) / 20
+        local[..., 2] = L**2 * (3 * wa + 2 * wb) / 60
+        local[..., 4] = L * (3 * wa + 7 * wb) / 20
+        local[..., 5] = -(L**2) * (2 * wa + 3 * wb) / 60
+        return local
+    shapes = transverse_shapes(_GAUSS3_T[:, None], L[None, :], phi[None, :])  # (3 points, E, 4)
+    for g, (t, weight) in enumerate(zip(_GAUSS3_T, _GAUSS3_W, strict=True)):
+        w = wa * (1.0 - t) + wb * t  # (states, E)
+        part = (weight * L)[None, :, None] * w[..., None] * shapes[g][None]  # (states, E, 4)
+        if g == 0:
+            local[..., [1, 2, 4, 5]] = part
+        else:
+            local[..., [1, 2, 4, 5]] += part
     return local
 
 
@@ -440,10 +480,14 @@ def _point_global(model: FrameModel, loads: StationLoads) -> tuple[np.ndarray, n
     pl = np.empty((loads.point_x.size, 6))
     pl[:, 0] = p_ax * (1 - t)
     pl[:, 3] = p_ax * t
-    pl[:, 1] = p_tr * b**2 * (3 * a + b) / Le**3
-    pl[:, 2] = p_tr * a * b**2 / Le**2
-    pl[:, 4] = p_tr * a**2 * (a + 3 * b) / Le**3
-    pl[:, 5] = -p_tr * a**2 * b / Le**2
+    phi = _shear_ratio(model)[e]
+    if np.any(phi):
+        pl[:, [1, 2, 4, 5]] = p_tr[:, None] * transverse_shapes(t, Le, phi)
+    else:
+        pl[:, 1] = p_tr * b**2 * (3 * a + b) / Le**3
+        pl[:, 2] = p_tr * a * b**2 / Le**2
+        pl[:, 4] = p_tr * a**2 * (a + 3 * b) / Le**3
+        pl[:, 5] = -p_tr * a**2 * b / Le**2
     return e, _to_global(pl, c[e], s[e])
 
 

@@ -82,7 +82,7 @@ class Section:
             sec = 1.0 / np.maximum(np.abs(np.cos(axis.theta)), 1e-3)
             area, inertia, depth = self.area_m2 * sec, self.second_moment_m4 * sec, self.depth_m * ones
         else:
-            crown_x = axis.x[int(np.argmax(axis.y - np.interp(axis.x, axis.x[[0, -1]], axis.y[[0, -1]])))]
+            crown_x = crown_abscissa(axis)
             half = np.where(axis.x <= crown_x, crown_x - axis.x[0], axis.x[-1] - crown_x)
             frac = np.abs(axis.x - crown_x) / np.maximum(half, 1e-12)
             depth = self.depth_m + (float(self.springing_depth_m) - self.depth_m) * frac
@@ -98,6 +98,25 @@ class Section:
             shear_modulus_kN_m2=self.shear_modulus_kN_m2 * ones,
             thermal_expansion_per_C=self.thermal_expansion_per_C,
         )
+
+
+def crown_abscissa(axis: Axis) -> float:
+    """The geometric crown (m): the top of the parabola through the highest station above the chord
+    and its two neighbours, so that a symmetric axis has its crown at midspan whether or not a
+    station stands there (two equal top stations otherwise tie, and rounding picked one)."""
+    height = axis.y - np.interp(axis.x, axis.x[[0, -1]], axis.y[[0, -1]])
+    i = int(np.argmax(height))
+    if i == 0 or i == axis.count - 1:
+        return float(axis.x[i])
+    x0, x1, x2 = axis.x[i - 1:i + 2]
+    h0, h1, h2 = height[i - 1:i + 2]
+    # vertex of the parabola through the three points (divided differences)
+    d1, d2 = (h1 - h0) / (x1 - x0), (h2 - h1) / (x2 - x1)
+    curvature = (d2 - d1) / (x2 - x0)
+    if curvature >= 0:
+        return float(x1)
+    vertex = 0.5 * (x0 + x1) - d1 / (2.0 * curvature)
+    return float(np.clip(vertex, x0, x2))
 
 
 @dataclass(frozen=True, eq=False)
