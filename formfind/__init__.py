@@ -15,7 +15,18 @@ Results are an aid to a qualified engineer; local codes and licensed practice go
 
 from __future__ import annotations
 
-__version__ = "0.1.0"
+
+def _version() -> str:
+    """The installed package's version (pyproject.toml is the one place it is stated)."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("formfind")
+    except PackageNotFoundError:  # run from a source tree that was never installed
+        return "0+unknown"
+
+
+__version__ = _version()
 
 # Public names, imported on first use so that `import formfind` (and the command line's --version,
 # --help and validate) never loads the solvers, scipy.sparse or matplotlib.
@@ -32,6 +43,8 @@ _PUBLIC = {
     "grid": "formfind.design.study",
     "run_study": "formfind.design.study",
     "AnalysisError": "formfind.errors",
+    "ArgumentError": "formfind.errors",
+    "FormFindingError": "formfind.errors",
     "CaseError": "formfind.errors",
     "FormfindError": "formfind.errors",
     "OutputError": "formfind.errors",
@@ -59,6 +72,8 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "AnalysisError",
+    "ArgumentError",
+    "FormFindingError",
     "Axis",
     "Case",
     "CaseAnalysis",

@@ -147,3 +147,19 @@ class SecondOrderMethod(StrEnum):
 
     P_DELTA = "p_delta"  # a geometrically nonlinear solve with the geometric stiffness, iterated
     AMPLIFICATION = "amplification"  # first-order moments times 1 / (1 - 1/alpha_cr)
+
+
+class Verdict(StrEnum):
+    """The outcome of a design check."""
+
+    PASS = "pass"
+    FAIL = "fail"
+    INFO = "info"  # a reported value without a limit (thrust on the abutments, patterned effects)
+
+
+class PointStatus(StrEnum):
+    """How a point of a trade study ended."""
+
+    OK = "ok"  # an axis was found and checked
+    INFEASIBLE = "infeasible"  # form finding's constraints conflict at this point
+    FAILED = "failed"  # another error (a mechanism, no convergence); the row's reason says which

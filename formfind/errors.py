@@ -56,3 +56,10 @@ class FormFindingError(FormfindError):
     that did not converge. The message names the constraints or gives the loop's last figures."""
 
     exit_code = 6
+
+
+class ArgumentError(FormfindError, TypeError):
+    """A public function was called with an argument of the wrong kind (None, a path where a case goes,
+    a string where a flag goes). Also a `TypeError`, so callers may catch either. Exit code 2 (usage)."""
+
+    exit_code = 2

@@ -316,3 +316,66 @@ def test_killing_the_writer_itself_at_random_moments_never_leaves_a_torn_set(tmp
             assert hashlib.sha256((folder / name).read_bytes()).hexdigest() == digest
     write_package(folder, {"a.txt": b"done"}, overwrite=True)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def _public_calls():
+    import formfind
+
+    case = parse_case(tomllib.loads(BASE_CASE), "t.toml")
+    analysis = formfind.analyse(case, buckling=False)
+    return [
+        ("analyse(path)", lambda: formfind.analyse(str(ROOT / "cases" / "footbridge.toml"))),
+        ("analyse(None)", lambda: formfind.analyse(None)),
+        ("analyse(buckling='no')", lambda: formfind.analyse(case, buckling="no")),
+        ("analyse(displacements=1)", lambda: formfind.analyse(case, displacements=1)),
+        ("analyse(axis=list)", lambda: formfind.analyse(case, axis=[0.0, 1.0])),
+        ("find_shape(dict)", lambda: formfind.find_shape({"case": 1})),
+        ("find_shape(start=str)", lambda: formfind.find_shape(case, start="parabola")),
+        ("check(None, analysis)", lambda: formfind.check(None, analysis)),
+        ("check(case, None)", lambda: formfind.check(case, None)),
+        ("grid(str)", lambda: formfind.grid("20,30", (0.2,))),
+        ("grid(nan)", lambda: formfind.grid((20.0,), (float("nan"),))),
+        ("run_study(points=ints)", lambda: next(formfind.run_study(case, [1, 2]))),
+        ("run_study(executor=str)", lambda: next(formfind.run_study(case, formfind.grid((20.0,), (0.2,)), "pool"))),
+        ("summarise(case)", lambda: formfind.summarise(case)),
+        ("load_case(None)", lambda: formfind.load_case(None)),
+        ("load_case(3)", lambda: formfind.load_case(3)),
+        ("parse_case(list)", lambda: formfind.parse_case([1, 2], "x.toml")),
+        ("parse_case(file=None)", lambda: formfind.parse_case({}, None)),
+    ]
+
+
+@pytest.mark.parametrize("index", range(18))
+def test_public_functions_refuse_bad_arguments_with_a_formfind_error(index):
+    """Every public function checks its arguments at the boundary and says what was expected; a
+    truthy string never passes for a flag."""
+    from formfind.errors import FormfindError
+
+    name, call = _public_calls()[index]
+    with pytest.raises(FormfindError) as info:
+        call()
+    assert "expected" in str(info.value), name
+
+
+@pytest.mark.parametrize("kind", ["zero", "null", "fifo", "directory"])
+def test_a_case_path_that_is_no_regular_file_is_refused_at_once(tmp_path, kind):
+    """/dev/zero is endless and a FIFO with no writer blocks for ever: neither is read; a folder neither."""
+    path = {"zero": "/dev/zero", "null": "/dev/null", "fifo": str(tmp_path / "pipe.toml"),
+            "directory": str(tmp_path)}[kind]
+    if kind == "fifo":
+        os.mkfifo(path)
+    proc = run_formfind("validate", path)
+    assert proc.returncode == 3 and proc.stderr.count("\n") == 1
+    assert ("regular file" in proc.stderr) or ("directory" in proc.stderr)
+
+
+def test_silent_answers_are_said_in_words(write_case):
+    """A fill whose surface lies below the arch adds no load, and a combination that buckles below its
+    own loads cannot be carried: both are said on the terminal (the run goes on)."""
+    fill = BASE_CASE.replace('  type = "self_weight"', '  type = "fill"\n  unit_weight_kN_m3 = 19.0\n  surface_y_m = -5.0')
+    proc = run_formfind("validate", str(write_case(fill, "fill.toml")))
+    assert proc.returncode == 0 and "adds no load" in proc.stderr
+    weak = BASE_CASE.replace("elastic_modulus_MPa = 30000", "elastic_modulus_MPa = 0.001").replace(
+        'kind = "three_hinged"\nhinge_x_m = 10.0', 'kind = "two_hinged"')
+    proc = run_formfind("analyse", str(write_case(weak, "weak.toml")), "--out", str(write_case(weak).parent / "o"))
+    assert proc.returncode == 0 and "cannot carry this combination" in proc.stderr

@@ -196,3 +196,15 @@ def test_envelope_of_a_moving_train_equals_brute_force():
     np.testing.assert_array_equal(env.maximum[1], np.maximum(r.V, r.V_left).max(axis=0))
     k = env.max_state[2, 10]
     assert r.M[k, 10] == env.maximum[2, 10]
+
+
+def test_regression_a_load_within_the_station_tolerance_has_no_lever_arm_at_the_hinge():
+    """Found by the property test above on a fresh clone: a point load 8e-9 m from the left springing
+    of an 8 m arch counts as standing at the springing (within 1e-9 of the span), but kept its 8e-9 m
+    lever arm, so the springing's moment read P x 8e-9 instead of 0."""
+    curve = Parabola(Chord(8.0, 0.3, -0.2), 2.4)
+    axis = Axis.from_curve(curve, place_stations(curve, 9))
+    section = _section(axis)
+    r = three_hinged(axis, case_station_loads(LoadCase("a", (PointLoad(8e-9, 500.0, 300.0),)), axis, section), 4)
+    scale = np.abs(r.reactions).max() * axis.span_m  # round-off only: 1e-12 of it
+    assert abs(r.M[0, 0]) <= 1e-12 * scale and abs(r.M[0, 4]) <= 1e-12 * scale

@@ -131,7 +131,14 @@ def analyse(
 
     Raises:
         AnalysisError: if the structure is a mechanism or a verification fails.
+        ArgumentError: if an argument is not of the kind stated.
     """
+    from formfind import arguments
+
+    arguments.case(case, "analyse")
+    arguments.axis(axis, "analyse")
+    arguments.flag(buckling, "analyse", "buckling", optional=True)
+    arguments.flag(displacements, "analyse", "displacements")
     axis = axis if axis is not None else case.axis()
     section = case.section.at(axis)
     loads = build_load_set(case.cases, case.combinations, axis, section)

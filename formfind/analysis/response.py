@@ -135,7 +135,14 @@ class GroupSummary:
 
 
 def summarise(response: Response) -> list[GroupSummary]:
-    """One `GroupSummary` per group, in the order the groups first appear."""
+    """One `GroupSummary` per group, in the order the groups first appear.
+
+    Raises:
+        ArgumentError: if ``response`` is not a Response (an analysis's ``cases`` or ``combinations``).
+    """
+    from formfind import arguments
+
+    arguments.instance(response, Response, "summarise", "response")
     rows = []
     for group in dict.fromkeys(response.groups):
         idx = [i for i, g in enumerate(response.groups) if g == group]

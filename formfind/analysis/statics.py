@@ -83,7 +83,8 @@ def cut_resultants(axis: Axis, loads: StationLoads) -> CutResultants:
         tol = 1e-9 * axis.span_m
         j = np.clip(np.searchsorted(axis.x, loads.point_x - tol, side="left"), 0, n - 1)
         at_station = np.abs(axis.x[j] - loads.point_x) <= tol
-        px = loads.point_x
+        # a load within the tolerance of a station is at that station, for its lever arm too
+        px = np.where(at_station, axis.x[j], loads.point_x)
         py = axis.ordinate_at(px)
         pf = loads.point_force
         pm = _cross(px, py, pf[:, 0], pf[:, 1])

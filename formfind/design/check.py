@@ -36,11 +36,11 @@ from formfind.analysis import statics
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.frame import influence_lines, unit_loads
 from formfind.analysis.response import EFFECTS, Response
-from formfind.enums import ActionKind, EccentricityLimit, SecondOrderMethod, SupportKind
+from formfind.enums import ActionKind, EccentricityLimit, SecondOrderMethod, SupportKind, Verdict
 from formfind.model.case import Case
 from formfind.model.loads import StationLoads
 
-FAIL, PASS, INFO = "fail", "pass", "info"
+FAIL, PASS, INFO = Verdict.FAIL, Verdict.PASS, Verdict.INFO
 PATTERN = "patterned live load"
 P_DELTA_STATES = 8  # P-Delta solves per combination at most; its other states (train positions) are amplified
 
@@ -58,7 +58,7 @@ class CheckRow:
     state: str
     station: int | None
     x_m: float | None
-    verdict: str
+    verdict: Verdict
     note: str = ""
 
 
@@ -251,7 +251,15 @@ def _where(response: Response, values: np.ndarray, x: np.ndarray) -> tuple[str, 
 
 
 def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
-    """Run every check on the combinations of ``analysis`` (the cases if there are none)."""
+    """Run every check on the combinations of ``analysis`` (the cases if there are none).
+
+    Raises:
+        ArgumentError: if ``case`` is not a Case or ``analysis`` not a CaseAnalysis.
+    """
+    from formfind import arguments
+
+    arguments.case(case, "check")
+    arguments.instance(analysis, CaseAnalysis, "check", "analysis")
     settings = case.check
     response = analysis.combinations if analysis.combinations.count else analysis.cases
     sec = analysis.section

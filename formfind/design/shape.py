@@ -165,7 +165,12 @@ def find_shape(case: Case, start: Axis | None = None) -> ShapeResult:
     Raises:
         FormFindingError: if the constraints conflict (the message names them), the solver fails,
             or the loop does not converge within ``max_iterations``.
+        ArgumentError: if ``case`` is not a Case or ``start`` not an Axis.
     """
+    from formfind import arguments
+
+    arguments.case(case, "find_shape")
+    arguments.axis(start, "find_shape", "start")
     axis = start if start is not None else case.axis()
     if case.find.objective is Objective.MIN_DEPTH:
         return _min_depth(case, axis)
@@ -175,7 +180,16 @@ def find_shape(case: Case, start: Axis | None = None) -> ShapeResult:
 def required_depth(case: Case, depth_m: float, start: Axis | None = None) -> ShapeResult:
     """The least depth the thrust lines need over all admissible axes when the rib is ``depth_m``
     deep (its self-weight follows): ``value`` of the result, in m. A depth is sufficient when the
-    returned value does not exceed it; `find_shape` with ``min_depth`` finds the least such depth."""
+    returned value does not exceed it; `find_shape` with ``min_depth`` finds the least such depth.
+
+    Raises:
+        ArgumentError: if ``case`` is not a Case, ``depth_m`` not a positive number or ``start`` not an Axis.
+    """
+    from formfind import arguments
+
+    arguments.case(case, "required_depth")
+    arguments.positive(depth_m, "required_depth", "depth_m", "m")
+    arguments.axis(start, "required_depth", "start")
     axis = start if start is not None else case.axis()
     return _find(case, axis, _with_depth(case.section, depth_m))
 

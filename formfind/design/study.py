@@ -31,7 +31,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from formfind.errors import CaseError, FormfindError
+from formfind.enums import PointStatus, Verdict
+from formfind.errors import ArgumentError, CaseError, FormfindError
 from formfind.model.case import Case, FindSettings, Supports
 from formfind.model.loads import LineLoad, LoadCase, NormalPressure, PointLoad
 from formfind.model.section import Section
@@ -59,8 +60,8 @@ class StudyPoint:
 class StudyRow:
     """The outcome of one study point. Forces in kN, moments in kNm, lengths in m, volumes in m3.
 
-    ``status`` is "ok", "infeasible" (form finding's constraints conflict), or "failed" (another
-    error); ``reason`` says why. ``thrust_kN`` maps each combination (or case) to its largest thrust.
+    ``status`` is a `PointStatus` (ok, infeasible: form finding's constraints conflict, failed:
+    another error); ``reason`` says why; ``verdict`` a `Verdict` (pass or fail) for a point with an axis. ``thrust_kN`` maps each combination (or case) to its largest thrust.
     ``find_s`` and ``check_s`` are wall times, kept out of the tables so that they stay identical
     whichever executor ran the study. ``axis_x_m`` / ``axis_y_m`` hold the found axis at its stations
     (m) until the writer has streamed it to its file.
@@ -70,7 +71,7 @@ class StudyRow:
     span_m: float
     rise_m: float
     depth_m: float
-    status: str
+    status: PointStatus
     reason: str = ""
     objective: float = math.nan
     objective_unit: str = ""
@@ -85,7 +86,7 @@ class StudyRow:
     weight_kN: float = math.nan
     worst_utilisation: float = math.nan
     worst_check: str = ""
-    verdict: str = ""
+    verdict: Verdict | str = ""
     find_s: float = 0.0
     check_s: float = 0.0
     axis_x_m: tuple[float, ...] = ()
@@ -108,7 +109,13 @@ def grid(spans_m: tuple[float, ...], rise_over_span: tuple[float, ...], depths_m
 
     Raises:
         CaseError: if the sweep exceeds MAX_POINTS or a value is out of range.
+        ArgumentError: if a range is not a list of numbers.
     """
+    from formfind import arguments
+
+    spans_m = arguments.numbers(spans_m, "grid", "spans_m")
+    rise_over_span = arguments.numbers(rise_over_span, "grid", "rise_over_span")
+    depths_m = arguments.numbers(depths_m, "grid", "depths_m", allow_none=True)
     count = len(spans_m) * len(rise_over_span) * len(depths_m)
     if count > MAX_POINTS:
         raise CaseError(file, "study", f"expected at most {MAX_POINTS} points, got {count}")
@@ -189,10 +196,10 @@ def evaluate(case: Case, point: StudyPoint) -> StudyRow:
         result = analyse(variant, axis=shape.axis)
         checks = check(variant, result)
     except FormFindingError as exc:
-        status = "infeasible" if "conflict" in str(exc) or "infeasible" in str(exc) else "failed"
+        status = PointStatus.INFEASIBLE if "conflict" in str(exc) or "infeasible" in str(exc) else PointStatus.FAILED
         return StudyRow(**base, status=status, reason=str(exc), find_s=time.perf_counter() - t0)
     except FormfindError as exc:
-        return StudyRow(**base, status="failed", reason=str(exc), find_s=time.perf_counter() - t0)
+        return StudyRow(**base, status=PointStatus.FAILED, reason=str(exc), find_s=time.perf_counter() - t0)
     t2 = time.perf_counter()
     response = result.combinations if result.combinations.count else result.cases
     governing = set(governing_groups(variant))
@@ -209,14 +216,14 @@ def evaluate(case: Case, point: StudyPoint) -> StudyRow:
     area = result.section.area_m2
     volume = float(np.sum(0.5 * (area[:-1] + area[1:]) * np.diff(result.axis.arc_length)))
     return StudyRow(
-        **base, status="ok", objective=shape.value, objective_unit=shape.unit,
+        **base, status=PointStatus.OK, objective=shape.value, objective_unit=shape.unit,
         peak_M_governing_kNm=float(peak_all[gov_idx].max()) if gov_idx else math.nan,
         peak_M_all_kNm=float(peak_all[k_all]), peak_M_state=response.names[k_all], thrust_kN=tuple(thrust),
         peak_N_kN=float(np.abs(np.concatenate([response.N, response.N_left])).max()),
         buckling_factor=min((b.critical_factor for b in result.buckling), default=math.inf),
         length_m=length, volume_m3=volume, weight_kN=volume * variant.section.unit_weight_kN_m3,
         worst_utilisation=math.nan if worst is None else float(worst.utilisation),
-        worst_check=worst.name if worst else "", verdict="pass" if checks.passed else "fail",
+        worst_check=worst.name if worst else "", verdict=Verdict.PASS if checks.passed else Verdict.FAIL,
         find_s=t1 - t0, check_s=t2 - t1,
         axis_x_m=tuple(result.axis.x.tolist()), axis_y_m=tuple(result.axis.y.tolist()),
     )
@@ -255,7 +262,17 @@ def run_study(case: Case, points: list[StudyPoint], executor: Executor | None = 
     ``executor``: any `concurrent.futures.Executor` (None: serial, in this process). At most
     ``window`` points are in flight (default: twice the executor's workers, at least 2), so memory
     stays bounded however long the sweep. ``progress(done, total)`` is called after each row.
+
+    Raises:
+        ArgumentError: if an argument is not of the kind stated.
     """
+    from formfind import arguments
+
+    arguments.case(case, "run_study")
+    if isinstance(points, str | bytes) or not all(isinstance(p, StudyPoint) for p in points):
+        raise ArgumentError("run_study: points: expected a list of StudyPoint (make them with formfind.grid)")
+    if executor is not None and not callable(getattr(executor, "submit", None)):
+        raise ArgumentError("run_study: executor: expected a concurrent.futures.Executor or None")
     total = len(points)
     if executor is None:
         for done, point in enumerate(points, 1):

@@ -116,18 +116,18 @@ class Supports:
 class StationSettings:
     """How many stations and how they are spaced."""
 
-    count: int = 101
-    spacing: StationSpacing = StationSpacing.X
+    count: int = schema.default(schema.STATIONS, "count")
+    spacing: StationSpacing = schema.default(schema.STATIONS, "spacing")
 
 
 @dataclass(frozen=True)
 class AnalysisSettings:
     """Options of the frame model and the buckling analysis (see `formfind.model.schema.ANALYSIS`)."""
 
-    shear_deformation: bool = False
-    buckling: bool = True
-    buckling_modes: int = 4
-    pressure_follows_axis: bool = False
+    shear_deformation: bool = schema.default(schema.ANALYSIS, "shear_deformation")
+    buckling: bool = schema.default(schema.ANALYSIS, "buckling")
+    buckling_modes: int = schema.default(schema.ANALYSIS, "buckling_modes")
+    pressure_follows_axis: bool = schema.default(schema.ANALYSIS, "pressure_follows_axis")
 
 
 @dataclass(frozen=True)
@@ -136,26 +136,26 @@ class CheckSettings:
 
     compression_limit_kN_m2: float | None = None
     tension_limit_kN_m2: float | None = None
-    eccentricity_limit: EccentricityLimit = EccentricityLimit.NONE
-    min_buckling_factor: float = 1.0
-    second_order_below: float = 10.0
-    second_order: SecondOrderMethod = SecondOrderMethod.P_DELTA
+    eccentricity_limit: EccentricityLimit = schema.default(schema.CHECK, "eccentricity_limit")
+    min_buckling_factor: float = schema.default(schema.CHECK, "min_buckling_factor")
+    second_order_below: float = schema.default(schema.CHECK, "second_order_below")
+    second_order: SecondOrderMethod = schema.default(schema.CHECK, "second_order")
     patterned_load_kN_m: float | None = None
     patterned_factors: tuple[tuple[str, float], ...] = ()
-    unreinforced: bool = False
-    min_geometric_factor: float = 1.0
-    collapse_case: str = ""
-    min_collapse_factor: float = 1.0
+    unreinforced: bool = schema.default(schema.CHECK, "unreinforced")
+    min_geometric_factor: float = schema.default(schema.CHECK, "min_geometric_factor")
+    collapse_case: str = schema.default(schema.CHECK, "collapse_case")
+    min_collapse_factor: float = schema.default(schema.CHECK, "min_collapse_factor")
 
 
 @dataclass(frozen=True)
 class OutputSettings:
     """Drawing and table settings (see `formfind.model.schema.OUTPUTS`)."""
 
-    drawing_unit: DrawingUnit = DrawingUnit.MM
-    dxf_version: DxfVersion = DxfVersion.R2010
-    setting_out_interval_m: float = 1.0
-    station_label_interval_m: float = 5.0
+    drawing_unit: DrawingUnit = schema.default(schema.OUTPUTS, "drawing_unit")
+    dxf_version: DxfVersion = schema.default(schema.OUTPUTS, "dxf_version")
+    setting_out_interval_m: float = schema.default(schema.OUTPUTS, "setting_out_interval_m")
+    station_label_interval_m: float = schema.default(schema.OUTPUTS, "station_label_interval_m")
 
 
 @dataclass(frozen=True)
@@ -175,22 +175,22 @@ class FindSettings:
     ``clearance`` and ``envelope`` are polylines ((x, y), ...) or empty.
     """
 
-    objective: Objective = Objective.MINIMAX
+    objective: Objective = schema.default(schema.FIND, "objective")
     governing: tuple[str, ...] = ()
-    rise_min_m: float | None = None
-    rise_max_m: float | None = None
-    symmetric: bool = False
-    concave: bool = True
+    rise_min_m: float | None = schema.default(schema.FIND, "rise_min_m")
+    rise_max_m: float | None = schema.default(schema.FIND, "rise_max_m")
+    symmetric: bool = schema.default(schema.FIND, "symmetric")
+    concave: bool = schema.default(schema.FIND, "concave")
     clearance: tuple[tuple[float, float], ...] = ()
     envelope: tuple[tuple[float, float], ...] = ()
-    max_slope: float | None = None
-    max_curvature_per_m: float | None = None
-    kern_fraction: float = 1.0 / 3.0
-    solver: Solver = Solver.AUTO
-    max_iterations: int = 60
-    tolerance_m: float | None = None
-    step_limit_m: float | None = None
-    optimality_gap: float = 1e-4
+    max_slope: float | None = schema.default(schema.FIND, "max_slope")
+    max_curvature_per_m: float | None = schema.default(schema.FIND, "max_curvature_per_m")
+    kern_fraction: float = schema.default(schema.FIND, "kern_fraction")
+    solver: Solver = schema.default(schema.FIND, "solver")
+    max_iterations: int = schema.default(schema.FIND, "max_iterations")
+    tolerance_m: float | None = schema.default(schema.FIND, "tolerance_m")
+    step_limit_m: float | None = schema.default(schema.FIND, "step_limit_m")
+    optimality_gap: float = schema.default(schema.FIND, "optimality_gap")
 
 
 HINGE_MARGIN_OF_SPAN = 0.01  # a crown hinge at least this fraction of the span from either springing
@@ -203,11 +203,11 @@ class Document:
     """Who and what the calculation is for (see `formfind.model.schema.CASE`): the drawing's title block
     and the report's sign-off. Empty strings where not given; ``issue_date`` ISO (YYYY-MM-DD) or ""."""
 
-    project: str = ""
-    job_number: str = ""
-    revision: str = ""
-    drawn_by: str = ""
-    checked_by: str = ""
+    project: str = schema.default(schema.CASE, "project")
+    job_number: str = schema.default(schema.CASE, "job_number")
+    revision: str = schema.default(schema.CASE, "revision")
+    drawn_by: str = schema.default(schema.CASE, "drawn_by")
+    checked_by: str = schema.default(schema.CASE, "checked_by")
     issue_date: str = ""
 
 
@@ -287,6 +287,10 @@ def load_case(path: str | Path) -> Case:
     import os
     import stat
 
+    if not isinstance(path, str | Path) or (isinstance(path, str) and not path):
+        from formfind.errors import ArgumentError
+
+        raise ArgumentError(f"load_case: path: expected a file path (str or Path), got {type(path).__name__}")
     p = Path(path)
     file = str(path)
     try:
@@ -333,6 +337,10 @@ def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
     Raises:
         CaseError: if any table or key is missing, unknown, of the wrong type or out of range.
     """
+    if not isinstance(file, str):
+        from formfind.errors import ArgumentError
+
+        raise ArgumentError(f"parse_case: file: expected the name of the file (str), got {type(file).__name__}")
     if not isinstance(data, dict):
         raise CaseError(file, "", f"expected a TOML document (a table of tables), got {type(data).__name__}")
     if _depth(data) > MAX_NESTING:

@@ -684,3 +684,17 @@ def reference_markdown() -> str:
         "",
     ]
     return "\n".join(lines)
+
+
+def default(table: Table, name: str) -> Any:
+    """The default of key ``name`` of ``table``, typed as the case's dataclasses hold it (a choice as its
+    Enum, a list as a tuple): the one place a key's default is stated, which those dataclasses use."""
+    key = table.key(name)
+    if key.required:
+        raise ValueError(f"key {table.header}.{name} has no default")  # a schema bug, not user input
+    value = key.default
+    if isinstance(key.kind, type) and issubclass(key.kind, Enum) and value is not None:
+        return key.kind(value)
+    if isinstance(value, list):
+        return tuple(value)
+    return value

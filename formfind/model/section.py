@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from formfind.enums import SectionVariation
+from formfind.model import schema
 from formfind.model.geometry import Axis
 
 KN_M2_PER_MPA = 1000.0
@@ -39,12 +40,12 @@ class Section:
     depth_m: float
     elastic_modulus_kN_m2: float
     unit_weight_kN_m3: float = 0.0
-    thermal_expansion_per_C: float = 1.2e-5
-    variation: SectionVariation = SectionVariation.CONSTANT
+    thermal_expansion_per_C: float = schema.default(schema.SECTION, "thermal_expansion_per_C")
+    variation: SectionVariation = schema.default(schema.SECTION, "variation")
     springing_depth_m: float | None = None
     width_m: float | None = None
-    shear_area_factor: float = 5.0 / 6.0
-    poisson_ratio: float = 0.2
+    shear_area_factor: float = schema.default(schema.SECTION, "shear_area_factor")
+    poisson_ratio: float = schema.default(schema.SECTION, "poisson_ratio")
 
     def __post_init__(self) -> None:
         for name in ("area_m2", "second_moment_m4", "depth_m", "elastic_modulus_kN_m2"):
