@@ -11,6 +11,15 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 
+# Property tests run a few examples each so that the suite stays within minutes; a long fuzz run
+# multiplies them: FORMFIND_FUZZ=50 python3 -m pytest tests -k "property or fuzz or given" (see DEVELOPERS.md)
+FUZZ = max(1, int(os.environ.get("FORMFIND_FUZZ", "1") or "1"))
+
+
+def examples(count: int) -> int:
+    """The number of examples a property test runs: ``count``, times FORMFIND_FUZZ for a long run."""
+    return count * FUZZ
+
 BASE_CASE = """\
 [case]
 name = "small"

@@ -14,6 +14,7 @@ from formfind.errors import AnalysisError
 from formfind.model.geometry import Axis, Chord, Parabola, place_stations
 from formfind.model.loads import LineLoad, LoadCase, PointLoad, StationLoads, Temperature, case_station_loads
 from formfind.model.section import Section
+from tests.conftest import examples
 from tests.test_statics import arches, load_sets
 
 AGREE_RTOL = 1e-6  # the requirement for frame vs exact statics on three-hinged arches
@@ -25,7 +26,7 @@ def _stiff_section(axis):
                    unit_weight_kN_m3=25.0).at(axis)
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=examples(40), deadline=None)
 @given(data=st.data())
 def test_three_hinged_frame_equals_exact_statics(data):
     axis, hinge = data.draw(arches())

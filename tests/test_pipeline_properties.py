@@ -19,6 +19,7 @@ from formfind.errors import FormFindingError
 from formfind.model.case import parse_case
 from formfind.output.dxf import SCALE, DrawingContent, build_drawing
 from formfind.output.package import build_files
+from tests.conftest import examples
 from tests.test_report import _Report
 
 LIMIT_TOL_M = 1e-6  # solver feasibility tolerance on ordinates, relative to the span
@@ -95,7 +96,7 @@ def _case(p):
     return parse_case(tomllib.loads(text), "prop.toml")
 
 
-@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=examples(8), deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(cases)
 # found by this test: a two-hinged search whose live case is empty asked the frame for zero states
 @example({"span": 10.0, "ratio": 0.25, "depth": 1.0, "deck": 5.0, "live": 0.0, "kind": "two_hinged",
@@ -127,7 +128,7 @@ def test_the_found_axis_keeps_every_limit_it_was_given(p):
     assert np.all(second <= 1e-6)  # concave (the default)
 
 
-@settings(max_examples=15, deadline=None)
+@settings(max_examples=examples(15), deadline=None)
 @given(st.floats(5.0, 200.0), st.floats(0.05, 0.6), st.integers(5, 80), st.sampled_from(["mm", "m"]))
 def test_the_drawing_round_trips_for_any_axis(span, ratio, stations, unit):
     import ezdxf
@@ -150,7 +151,7 @@ def test_the_drawing_round_trips_for_any_axis(span, ratio, stations, unit):
     np.testing.assert_allclose(points, np.column_stack([axis.x, axis.y]) * scale, rtol=0, atol=1e-9 * scale * span)
 
 
-@settings(max_examples=4, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=examples(4), deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(cases)
 def test_the_report_s_verdict_numbers_equal_the_json_for_any_case(p):
     case = _case(p)

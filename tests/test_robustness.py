@@ -18,7 +18,7 @@ from formfind.errors import AnalysisError, CaseError
 from formfind.model.case import parse_case
 from formfind.output import files
 from formfind.output.package import write_package
-from tests.conftest import BASE_CASE, ROOT, run_formfind
+from tests.conftest import BASE_CASE, ROOT, examples, run_formfind
 
 CORPUS = ROOT / "tests" / "corpus"
 
@@ -193,7 +193,7 @@ def _mutate(draw_doc: dict, path: list[str], value) -> dict:
     return draw_doc
 
 
-@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=examples(300), deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(path=st.lists(st.sampled_from(KEYS), min_size=1, max_size=3), value=values,
        extra=st.dictionaries(st.sampled_from(KEYS), values, max_size=3))
 def test_fuzzed_documents_give_a_case_or_a_case_error(path, value, extra):

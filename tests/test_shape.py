@@ -20,7 +20,7 @@ from formfind.design.shape import find_shape
 from formfind.enums import Objective, Solver
 from formfind.errors import FormFindingError
 from formfind.model.case import parse_case
-from tests.conftest import BASE_CASE, ROOT
+from tests.conftest import BASE_CASE, ROOT, examples
 
 EXIT_FORM_FINDING = 6
 
@@ -31,7 +31,7 @@ def _structure(n: int, k: int, objective=Objective.MINIMAX, solver=Solver.CLARAB
     return Structure(objective, n, k, equality, (("rise_max", sp.csr_matrix(eye[1:-1])),), solver)
 
 
-@settings(max_examples=25, deadline=None)
+@settings(max_examples=examples(25), deadline=None)
 @given(seed=st.integers(0, 10_000), n=st.integers(5, 30), k=st.integers(1, 6))
 def test_per_station_method_equals_the_lp(seed, n, k):
     """Without coupling constraints the minimax separates: the exact method and the LP agree (the

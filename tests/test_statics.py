@@ -27,6 +27,7 @@ from formfind.model.loads import (
     case_station_loads,
 )
 from formfind.model.section import Section
+from tests.conftest import examples
 
 EQ_RTOL = 1e-9  # the requirement: global equilibrium to 1e-9 relative
 
@@ -110,7 +111,7 @@ def _independent_totals(loads, axis, section):
     return np.array([fx, fy])
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=examples(60), deadline=None)
 @given(data=st.data())
 def test_reactions_balance_the_applied_loads(data):
     axis, hinge = data.draw(arches())
@@ -127,7 +128,7 @@ def test_reactions_balance_the_applied_loads(data):
     np.testing.assert_allclose(reaction + st_loads.total_force()[0], 0.0, atol=EQ_RTOL * scale)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=examples(60), deadline=None)
 @given(data=st.data())
 def test_moment_vanishes_at_the_three_hinges(data):
     axis, hinge = data.draw(arches())
@@ -140,7 +141,7 @@ def test_moment_vanishes_at_the_three_hinges(data):
         assert abs(r.M[0, station]) <= EQ_RTOL * scale
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=examples(40), deadline=None)
 @given(data=st.data(), fa=st.floats(-3.0, 3.0), fb=st.floats(-3.0, 3.0))
 def test_superposition_of_cases_equals_the_combination(data, fa, fb):
     axis, hinge = data.draw(arches())
