@@ -150,7 +150,7 @@ def _load(args: argparse.Namespace):
         s = case.supports
         if support is SupportKind.TIED and case.tie_EA_kN is None:
             raise CaseError(str(args.case), "supports.tie_area_m2", "--supports tied needs tie_area_m2 and tie_modulus_MPa in the case file")
-        hinge = s.hinge_x_m if s.hinge_x_m is not None else 0.5 * case.geometry.span_m
+        hinge = s.hinge_at(case.geometry.span_m)
         case = replace(case, supports=Supports(support, hinge if support is SupportKind.THREE_HINGED else None,
                                                s.tie_area_m2, s.tie_modulus_kN_m2))
     return case

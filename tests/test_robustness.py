@@ -379,3 +379,16 @@ def test_silent_answers_are_said_in_words(write_case):
         'kind = "three_hinged"\nhinge_x_m = 10.0', 'kind = "two_hinged"')
     proc = run_formfind("analyse", str(write_case(weak, "weak.toml")), "--out", str(write_case(weak).parent / "o"))
     assert proc.returncode == 0 and "cannot carry this combination" in proc.stderr
+
+
+def test_a_full_disk_leaves_no_folder_behind(tmp_path, monkeypatch):
+    """Writing into a new --out folder on a full disk: exit code 5's error, and no empty folder left."""
+    from formfind.errors import OutputError
+
+    def full(fd):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(os, "fsync", full)
+    with pytest.raises(OutputError, match="disk is full"):
+        write_package(tmp_path / "new" / "deeper" / "case", {"a.txt": b"1"}, overwrite=False)
+    assert list(tmp_path.iterdir()) == []

@@ -18,7 +18,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from formfind.design.program import Structure, second_differences
-from formfind.enums import Objective, SupportKind
+from formfind.enums import Objective
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
 from formfind.model.geometry import Axis
@@ -88,8 +88,9 @@ def _interp_line(points: tuple[tuple[float, float], ...], x: np.ndarray) -> tupl
 def crown_station(case: Case, x: np.ndarray) -> int:
     """The hinge station of a three-hinged arch, else the station nearest midspan."""
     span = x[-1] - x[0]
-    if case.supports.kind is SupportKind.THREE_HINGED and case.supports.hinge_x_m is not None:
-        return int(np.argmin(np.abs(x - case.supports.hinge_x_m)))
+    hinge = case.supports.hinge_at(float(x[-1] - x[0]))
+    if hinge is not None:
+        return int(np.argmin(np.abs(x - (x[0] + hinge))))
     return int(np.argmin(np.abs(x - (x[0] + 0.5 * span))))
 
 

@@ -111,6 +111,13 @@ class Supports:
     tie_area_m2: float | None = None
     tie_modulus_kN_m2: float | None = None
 
+    def hinge_at(self, span_m: float) -> float | None:
+        """The crown hinge's abscissa (m) of a three-hinged arch: as given, else midspan (the one place
+        that default is set); None for other support kinds."""
+        if self.kind is not SupportKind.THREE_HINGED:
+            return None
+        return self.hinge_x_m if self.hinge_x_m is not None else 0.5 * span_m
+
 
 @dataclass(frozen=True)
 class StationSettings:
@@ -272,7 +279,8 @@ class Case:
 
     def hinge_station(self, axis: Axis) -> int:
         """Index of the station at the crown hinge of a three-hinged arch."""
-        xh = self.supports.hinge_x_m if self.supports.hinge_x_m is not None else 0.5 * axis.span_m
+        xh = self.supports.hinge_at(axis.span_m)
+        xh = 0.5 * axis.span_m if xh is None else xh
         return int(np.argmin(np.abs(axis.x - xh)))
 
 
@@ -497,7 +505,7 @@ def _supports(s: dict[str, Any], geometry: Geometry, file: str) -> Supports:
     span = geometry.span_m
     hinge = s["hinge_x_m"]
     if kind is SupportKind.THREE_HINGED:
-        hinge = 0.5 * span if hinge is None else hinge  # the one place the midspan default is set
+        hinge = Supports(kind, hinge).hinge_at(span)
         margin = HINGE_MARGIN_OF_SPAN * span
         if not margin <= hinge <= span - margin:
             raise CaseError(file, "supports.hinge_x_m", f"expected a hinge strictly inside the span, at least "

@@ -197,6 +197,7 @@ def write_set(folder: Path, contents: dict[str, bytes], overwrite: bool, owned: 
     names = sorted(contents)
     clean_leftovers(folder)
     check_destination(folder, names, overwrite)
+    created = [q for q in (folder.parent, *folder.parent.parents) if not q.exists()]
     try:
         folder.parent.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
@@ -231,6 +232,9 @@ def write_set(folder: Path, contents: dict[str, bytes], overwrite: bool, owned: 
         _fsync_dir(folder.parent)
     except OSError as exc:
         shutil.rmtree(staging, ignore_errors=True)
+        for made in created:  # the folders this call created, now empty: leave nothing behind
+            with contextlib.suppress(OSError):
+                made.rmdir()
         reason = "the disk is full" if exc.errno in (errno.ENOSPC, errno.EDQUOT) else (exc.strerror or str(exc))
         raise OutputError(f"{folder}: the outputs could not be written ({reason}); earlier outputs are unchanged") from None
     return [folder / name for name in names]
