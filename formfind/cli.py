@@ -342,6 +342,20 @@ def _print_shape(shape) -> None:
     for a in shape.active:
         cost = "" if a.cost != a.cost else f", cost {for_reading(a.cost)} {a.unit}"
         print(f"active constraint: {a.name} at {len(a.stations)} station(s){cost}")
+    if shape.fairness_cost > 0:
+        print(f"fairness: the certified optimum is {significant(shape.optimum)} {shape.unit}; the fairer axis returned "
+              f"costs {shape.fairness_cost:.2%} more")
+    if shape.fairness is not None:
+        f = shape.fairness
+        print(f"shape: {'symmetric, ' if shape.symmetric else ''}largest turn between chords "
+              f"{for_reading(f.largest_turn_deg, 3)} deg at x = {length(f.largest_at_x_m)} m, "
+              f"{for_reading(f.ratio, 3)} x the mean")
+    if shape.simple_curves:
+        print("simple curves through the springings and rise, largest deviation from the axis: " + ", ".join(
+            f"{c.name} {for_reading(1000.0 * c.deviation_m, 4)} mm at x = {length(c.at_x_m)} m"
+            for c in shape.simple_curves))
+    for w in shape.warnings:
+        print(f"warning: {w}")
 
 
 def _print_summary(result) -> None:

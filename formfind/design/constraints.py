@@ -39,6 +39,7 @@ class Limits:
         envelope_rows, envelope_level: stations under a site line and its level there, m.
         fixed_rise: whether the crown's ordinate is fixed.
         coupled: whether a constraint couples stations (symmetry, slope, curvature, free rise).
+        symmetric: whether the axis is kept symmetric about midspan.
     """
 
     structure: Structure
@@ -52,6 +53,7 @@ class Limits:
     envelope_level: np.ndarray
     fixed_rise: bool
     coupled: bool
+    symmetric: bool = False
 
     @property
     def free(self) -> np.ndarray:
@@ -94,9 +96,14 @@ def crown_station(case: Case, x: np.ndarray) -> int:
     return int(np.argmin(np.abs(x - (x[0] + 0.5 * span))))
 
 
-def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int) -> Limits:
-    """The constraints of ``case``'s `[find]` on stations ``x`` with springings at ``y0``'s ends."""
+def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int, symmetric: bool | None = None,
+                 mirrored: bool = False) -> Limits:
+    """The constraints of ``case``'s `[find]` on stations ``x`` with springings at ``y0``'s ends;
+    ``symmetric`` (None: the case's own setting, False if that is automatic) pairs the stations, and
+    ``mirrored`` says the problem is its own mirror image, so the pairing couples nothing the
+    per-station method would not give anyway."""
     f = case.find
+    symmetric = bool(f.symmetric) if symmetric is None else symmetric
     n = x.size
     span = x[-1] - x[0]
     chord = y0[0] + (y0[-1] - y0[0]) * (x - x[0]) / span
@@ -111,7 +118,7 @@ def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int) -> Limi
     if fixed_rise:
         rows_eq.append(eye[crown])
         g.append(chord[crown] + f.rise_max_m)
-    if f.symmetric:
+    if symmetric:
         if not np.allclose(x + x[::-1], x[0] + x[-1], atol=1e-9 * span):
             raise FormFindingError("a symmetric axis needs stations placed symmetrically about midspan")
         for i in range(1, n // 2):
@@ -149,10 +156,10 @@ def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int) -> Limi
     if f.max_curvature_per_m is not None:
         blocks.append(("curvature", sp.vstack([d2, -d2]).tocsr()))
         q["curvature"] = np.full(2 * (n - 2), f.max_curvature_per_m)
-    coupled = f.symmetric or f.max_slope is not None or f.max_curvature_per_m is not None or not fixed_rise
+    coupled = (symmetric and not mirrored) or f.max_slope is not None or f.max_curvature_per_m is not None or not fixed_rise
     structure = Structure(f.objective, n, states, sp.vstack(rows_eq, format="csr"), tuple(blocks), f.solver)
     return Limits(structure, q, np.array(g), crown, chord, clearance_rows, clearance_level, envelope_rows,
-                  envelope_level, fixed_rise, coupled)
+                  envelope_level, fixed_rise, coupled, symmetric)
 
 
 def half_depth(section: Section, axis: Axis) -> np.ndarray:
@@ -181,8 +188,10 @@ def station_bounds(limits: Limits, half: np.ndarray, x: np.ndarray) -> tuple[np.
         upper[rows] = np.minimum(upper[rows], limits.envelope_level - half[rows])
     eq = limits.structure.equality.tocsr()
     for r in range(eq.shape[0]):
+        if eq.indptr[r + 1] - eq.indptr[r] != 1:
+            continue  # a symmetry pair, not a fixed ordinate
         i = int(eq.indices[eq.indptr[r]])
-        lower[i] = upper[i] = limits.g[r]
+        lower[i] = upper[i] = limits.g[r] / eq.data[eq.indptr[r]]
     if np.any(lower > upper + 1e-12):
         bad = int(np.flatnonzero(lower > upper + 1e-12)[0])
         raise FormFindingError(

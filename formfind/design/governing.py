@@ -82,6 +82,47 @@ def kink_stations(case: Case, x: np.ndarray) -> tuple[int, ...]:
     return tuple(sorted(out))
 
 
+def mirror_symmetric(case: Case, axis: Axis, loads: StationLoads) -> bool:
+    """True if the problem is its own mirror image about midspan: level springings, stations placed
+    symmetrically, a crown hinge (if any) at midspan, no imposed support movement, and for every
+    governing state another (or itself) whose loads are its mirror image. Form finding then keeps the
+    axis symmetric unless the case says otherwise (``[find] symmetric``)."""
+    x, span = axis.x, axis.span_m
+    tol = 1e-9 * span
+    if abs(axis.y[0] - axis.y[-1]) > tol or not np.allclose(x + x[::-1], x[0] + x[-1], atol=tol):
+        return False
+    hinge = case.supports.hinge_at(span)
+    if hinge is not None and abs(hinge - 0.5 * span) > tol:
+        return False
+    if np.any(loads.support_movement):
+        return False
+    scale = max(float(np.abs(loads.dist).max(initial=0.0)), float(np.abs(loads.point_force).max(initial=0.0)), 1e-300)
+    close = 1e-9 * scale
+
+    def points(k: int, mirrored: bool) -> np.ndarray:
+        """The state's point loads as rows (x / span, Fx, Fy), sorted; mirrored about midspan."""
+        chosen = loads.point_state == k
+        px, pf = loads.point_x[chosen], loads.point_force[chosen]
+        if mirrored:
+            px, pf = (x[0] + x[-1]) - px, pf * np.array([-1.0, 1.0])
+        rows = np.column_stack([np.round(px / tol) * tol / span, pf])
+        return rows[np.lexsort(rows.T[::-1])] if rows.size else rows.reshape(0, 3)
+
+    # mirrored distributed loads: the elements reversed, their ends swapped, x components turned round
+    mirrored = loads.dist[:, ::-1, ::-1, :] * np.array([-1.0, 1.0])
+    temperatures = np.column_stack([loads.temperature_uniform_C, loads.temperature_difference_C])
+    for k in range(loads.count):
+        twins = np.flatnonzero(
+            (np.abs(loads.dist - mirrored[k]).reshape(loads.count, -1).max(axis=1, initial=0.0) <= close)
+            & (np.abs(temperatures - temperatures[k]).max(axis=1) <= 1e-9)
+        )
+        mine = points(k, True)
+        if not any(points(j, False).shape == mine.shape and np.allclose(points(j, False), mine, rtol=0.0,
+                                                                         atol=max(close, 1e-12)) for j in twins):
+            return False
+    return True
+
+
 def has_horizontal(loads: StationLoads) -> bool:
     """True if a state has a horizontal load component (its moments then depend on load heights)."""
     return bool(np.any(loads.dist[:, :, :, 0]) or np.any(loads.point_force[:, 0]))

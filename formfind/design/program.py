@@ -454,18 +454,31 @@ def second_differences(x: np.ndarray) -> sp.csr_matrix:
     return sp.diags([1 / (h0 * mean), -(1 / h0 + 1 / h1) / mean, 1 / (h1 * mean)], [0, 1, 2], shape=(n - 2, n)).tocsr()
 
 
+def fairness_matrix(x: np.ndarray) -> sp.csr_matrix:
+    """The change of curvature along the axis, d3y/dx3 between interior stations, as a sparse
+    (n - 3, n) matrix (1/m2): the differences of `second_differences` over the spacing. Its sum of
+    squares is the fairness measure: a circle or a parabola has a constant second derivative (and a
+    vanishing measure in the parabola's case), while a kink or a flat run between curved stretches
+    shows up as a jump in curvature."""
+    d2 = second_differences(x)
+    middle = x[1:-1]
+    h = np.diff(middle)
+    step = sp.diags([-1.0 / h, 1.0 / h], [0, 1], shape=(middle.size - 1, middle.size))
+    return (step @ d2).tocsr()
+
+
 def smoothest_within(structure: Structure, data: ProgramData, limit: float, chosen: np.ndarray | None = None,
                      fallback: np.ndarray | None = None) -> tuple[np.ndarray | None, float]:
-    """Among the axes whose linear-model objective stays within ``limit`` (epigraph unit), the one of
-    least sum of (d2y/dx2)^2, by constraint generation; returns (y or ``fallback`` if the QP fails,
-    solve time s). Every other constraint of the program holds."""
+    """Among the axes whose linear-model objective stays within ``limit`` (epigraph unit), the fairest
+    (least sum of squared changes of curvature, `fairness_matrix`), by constraint generation; returns
+    (y or ``fallback`` if the QP fails, solve time s). Every other constraint of the program holds."""
     model = data.model
     n = model.stations
     started = time.perf_counter()
     c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
     if chosen is None:
         chosen = _initial_rows(data, fallback)
-    curvature = second_differences(model.x)
+    curvature = fairness_matrix(model.x) if model.stations > 3 else second_differences(model.x)
     scale = float(np.abs(curvature).max()) or 1.0
     chosen = chosen.copy()
     for _ in range(MAX_ROUNDS):

@@ -13,8 +13,8 @@ the region falls below the tolerance, or raises after ``max_iterations``.
 
 Every accepted axis is linearised once and the program there with the region opened gives the
 certificate (a dual bound that no axis does better, to first order); the search stops as soon as the
-axis is within ``[find] optimality_gap`` of that bound. Then, once, among the axes within
-``FAIR_SLACK`` of the optimum the smoothest is returned, checked by the exact engine.
+axis is within ``[find] optimality_gap`` of that bound. Then, among the axes within the fairness
+tolerance of the optimum the fairest is returned (`fairest`), checked by the exact engine.
 
 Freezing the redundants (the thrust, or the springing reactions of a fixed arch) instead of taking
 their sensitivity does not work: with them frozen, many axes are self-consistent fixed points, so the
@@ -32,6 +32,7 @@ from formfind.analysis.frame import FrameModel
 from formfind.analysis.response import Response
 from formfind.analysis.sensitivity import MomentModel, frame_model_moments, statics_model
 from formfind.design.constraints import Limits, half_depth, infeasible_message
+from formfind.design.fairness import assess
 from formfind.design.governing import (
     analyse_governing,
     density_rates,
@@ -55,8 +56,9 @@ log = logging.getLogger(__name__)
 TOLERANCE_OF_SPAN = 1e-5  # default step tolerance, relative to the span
 STALL = 1e-6  # ... which also stops when two kept steps together gain less than this, relative
 SHRINK_BELOW, EXPAND_ABOVE = 0.1, 0.5  # trust-region ratio thresholds (actual / predicted decrease)
-FAIR_RADIUS = 0.05  # the smoothing step moves at most this x the rise at first
-FAIR_SLACK = 1e-5  # the smoothest axis may give up this fraction of the optimum (checked exactly)
+FAIR_STEPS = 8  # fairness steps at most
+FAIR_HALVINGS = 6  # a fairness step is halved at most this many times
+FAIR_SLACK = 1e-5  # without [find] fair (or for a fair axis), the slack that only settles a non-unique optimum (checked exactly)
 OPEN_REGION = 10.0  # x span: the trust region of the certificate's program, open in effect
 
 
@@ -74,7 +76,8 @@ class Iteration:
 @dataclass(frozen=True, eq=False)
 class Outcome:
     """Where a search ended: the axis, the governing states' response and loads there, the program
-    that certifies it, the history and the solvers' time (s)."""
+    that certifies it, the history, the solvers' time (s), and the objective of the certified optimum
+    (the returned axis may give up the fairness tolerance of it)."""
 
     axis: Axis
     response: Response
@@ -82,6 +85,7 @@ class Outcome:
     solution: ProgramSolution | None
     history: tuple[Iteration, ...]
     time_s: float
+    optimum: float = float("nan")
 
 
 def linearise(case: Case, axis: Axis, section: Section, response: Response, loads: StationLoads,
@@ -195,8 +199,9 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
             )
     if not history:
         history.append(Iteration(1, current, 0.0, 0.0))
-    axis, response, loads, spent = fairest(case, limits, axis, section, response, loads, open_data, current, history)
-    return Outcome(axis, response, loads, certificate, tuple(history), total_time + spent)
+    optimum = current
+    axis, response, loads, spent = fairest(case, limits, axis, section, response, loads, model, current, history)
+    return Outcome(axis, response, loads, certificate, tuple(history), total_time + spent, optimum)
 
 
 def _certified(case: Case, current: float, certificate: ProgramSolution, states: int, axis: Axis) -> bool:
@@ -217,28 +222,47 @@ def _admissible(limits: Limits, data: ProgramData, y: np.ndarray) -> bool:
 
 
 def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: Response, loads: StationLoads,
-            data: ProgramData, optimum: float, history: list[Iteration]) -> tuple[Axis, Response, StationLoads, float]:
-    """Among the axes within ``FAIR_SLACK`` of the optimum, the smoothest the exact engine confirms:
-    one program on the linearisation at ``axis`` within ``FAIR_RADIUS`` x the rise, then the full step
-    or a quarter of it (the linear model's error falls with the square of the step). Returns the axis,
-    its response and loads, and the time spent in the solver (s)."""
+            model: FrameModel | None, optimum: float, history: list[Iteration]) -> tuple[Axis, Response, StationLoads, float]:
+    """Among the axes within the fairness tolerance of the optimum, the fairest the exact engine confirms
+    (``[find] fair``, where the optimum is not fair already; otherwise the smallest slack only settles
+    a non-unique optimum). Each step solves for the fairest axis of the program linearised at the
+    current one, then walks towards it, halving the step until the exact objective stays within the
+    limit (the set of admissible axes of the linear model is convex, so every point on the way is
+    admissible to first order, and the model's error falls with the square of the step). Where the
+    exact objective overshoots, the next linear program aims lower by the overshoot. Returns the
+    axis, its response and loads, and the time spent in the solver (s)."""
     f = case.find
     if f.objective is Objective.RMS:  # a strictly convex objective: its optimum is already definite
         return axis, response, loads, 0.0
-    radius = FAIR_RADIUS * max(f.rise_max_m, 1e-3)
-    limit = optimum * (1 + FAIR_SLACK) + 1e-12  # the epigraph bound s is in the objective's own unit
-    fair = replace(data, lower=axis.y - radius, upper=axis.y + radius)
-    y_fair, elapsed = smoothest_within(limits.structure, fair, limit, None, axis.y)
-    if y_fair is None or float(np.abs(y_fair - axis.y).max()) <= 1e-12 * axis.span_m:
-        return axis, response, loads, elapsed
-    for fraction in (1.0, 0.25):
-        y_try = axis.y + fraction * (y_fair - axis.y)
-        candidate = axis_through(axis.x, y_try, kink_stations(case, axis.x))
-        trial, trial_loads, _ = analyse_governing(case, candidate, section)
-        value = exact_value(f.objective, trial, candidate, f.kern_fraction)
-        if value <= limit:
-            history.append(Iteration(history[-1].number + 1, value, float(np.abs(y_try - axis.y).max()),
-                                     float(np.abs(fair.moments(y_try) - trial.M).max())))
-            return candidate, trial, trial_loads, elapsed
+    slack = f.fairness_tolerance if f.fair and not assess(axis).fair else FAIR_SLACK
+    limit = optimum * (1 + slack) + 1e-12  # the epigraph bound s is in the objective's own unit
+    aim = limit
+    breaks = kink_stations(case, axis.x)
+    tolerance = TOLERANCE_OF_SPAN * axis.span_m
+    elapsed = 0.0
+    for _ in range(FAIR_STEPS):
+        moments = linearise(case, axis, section, response, loads, model)
+        data = program_data(case, limits, axis, section, response, moments, None)
+        y_fair, spent = smoothest_within(limits.structure, data, aim, None, axis.y)
+        elapsed += spent
+        if y_fair is None:
+            break
+        direction = y_fair - axis.y
+        if float(np.abs(direction).max()) <= tolerance:
+            break
+        for halving in range(FAIR_HALVINGS):
+            t = 0.5 ** halving
+            y = axis.y + t * direction
+            candidate = axis_through(axis.x, y, breaks)
+            trial, trial_loads, trial_model = analyse_governing(case, candidate, section)
+            value = exact_value(f.objective, trial, candidate, f.kern_fraction)
+            if halving == 0 and value > limit:  # aim the next program below the limit by the overshoot
+                aim = max(optimum * (1 + 0.5 * slack), aim - (value - limit))
+            if value <= limit and _admissible(limits, replace(data, q=limits.rhs(half_depth(section, candidate))), y):
+                history.append(Iteration(history[-1].number + 1, value, t * float(np.abs(direction).max()),
+                                         float(np.abs(data.moments(y) - trial.M).max())))
+                axis, response, loads, model = candidate, trial, trial_loads, trial_model
+                break
+        else:
+            break  # no step towards the fairer axis keeps within the limit: stay
     return axis, response, loads, elapsed
-

@@ -39,6 +39,7 @@ from formfind.design.constraints import (
     infeasible_message,
     station_bounds,
 )
+from formfind.design.fairness import FairnessReport, assess
 from formfind.design.governing import (
     analyse_governing,
     exact_value,
@@ -48,13 +49,15 @@ from formfind.design.governing import (
     horizontal_resultant,
     kink_stations,
     loads_move,
+    mirror_symmetric,
     objective_weights,
     reported,
     tributary,
 )
-from formfind.design.program import ProgramData, ProgramSolution, solve_program
+from formfind.design.program import ProgramData, ProgramSolution, smoothest_within, solve_program
 from formfind.design.separable import per_station_minimax
 from formfind.design.sequential import Iteration, Outcome, search
+from formfind.design.simple_curves import CurveDeviation, nearby_curves
 from formfind.enums import Objective, ShapeMethod, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
@@ -132,6 +135,13 @@ class ShapeResult:
         section: the rib used (its depth is the optimum for ``min_depth``).
         states: names of the governing load states.
         thrust_kN: the largest thrust H (kN) of the governing states on the found axis.
+        optimum: the objective of the certified optimum, in ``unit``; ``value`` (the returned axis's)
+            may exceed it by the fairness tolerance (``fairness_cost`` says by how much, as a fraction).
+        symmetric: whether the axis was kept symmetric (asked for, or found automatically).
+        fairness: kinks, flat runs and reversals of the returned axis (`formfind.design.fairness`).
+        simple_curves: the parabola, circle and catenary through the same springings and rise, each with
+            its largest deviation from the axis.
+        warnings: the fairness findings in words, for the designer to read.
     """
 
     axis: Axis
@@ -152,6 +162,18 @@ class ShapeResult:
     section: Section
     states: tuple[str, ...]
     thrust_kN: float = float("nan")
+    optimum: float = float("nan")
+    symmetric: bool = False
+    fairness: FairnessReport | None = None
+    simple_curves: tuple[CurveDeviation, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def fairness_cost(self) -> float:
+        """(value - optimum) / optimum: what fairness cost (0 where it cost nothing)."""
+        if not (np.isfinite(self.optimum) and self.optimum > 0):
+            return 0.0
+        return max(self.value - self.optimum, 0.0) / self.optimum
 
 
 # ------------------------------------------------------------------------------------ finding
@@ -231,7 +253,9 @@ def _find(case: Case, axis: Axis, section: Section) -> ShapeResult:
     loads = governing_loads(case, axis, section)
     if loads.count == 0:
         raise FormFindingError("no governing load states: name combinations or cases in [find] governing")
-    limits = build_limits(case, axis.x, axis.y, loads.count)
+    mirrored = mirror_symmetric(case, axis, loads)
+    symmetric = mirrored if case.find.symmetric is None else case.find.symmetric
+    limits = build_limits(case, axis.x, axis.y, loads.count, symmetric, mirrored)
     three_hinged = case.supports.kind is SupportKind.THREE_HINGED
     if three_hinged and limits.fixed_rise and case.find.objective is not Objective.MIN_DEPTH:
         if not loads_move(case) and not has_horizontal(loads):
@@ -268,6 +292,8 @@ def _solve_frozen(case: Case, axis: Axis, section: Section, limits: Limits, resp
         if separable:
             lower, upper = station_bounds(limits, half, axis.x)
             y_new, _ = per_station_minimax(model.M0 + h * axis.y[None, :], h, lower, upper)
+            if limits.symmetric:  # a mirrored problem: the twins agree to round-off; make them agree exactly
+                y_new = 0.5 * (y_new + y_new[::-1])
             sol = None
             if f.concave and not _is_concave(axis.x, y_new):
                 separable = False  # the per-station optimum sags: solve with the concavity bound
@@ -301,10 +327,52 @@ def _exact(case: Case, axis: Axis, section: Section, limits: Limits) -> ShapeRes
         raise FormFindingError(f"form finding: the exact model disagrees with the statics engine by {residual:.3g} kNm")
     f = case.find
     value = exact_value(f.objective, checked, found, f.kern_fraction)
-    history = (Iteration(1, value, float(np.abs(y_new - axis.y).max()), residual),)
+    history = [Iteration(1, value, float(np.abs(y_new - axis.y).max()), residual)]
     method = ShapeMethod.PER_STATION if sol is None else ShapeMethod.PROGRAM
-    outcome = Outcome(found, checked, loads, sol, history, elapsed)
+    fair_axis, fair_response, fair_loads, spent = _fair_exact(case, limits, axis, found, section, response, model,
+                                                              value, history)
+    outcome = Outcome(fair_axis, fair_response if fair_response is not None else checked,
+                      fair_loads if fair_loads is not None else loads, sol, tuple(history), elapsed + spent, value)
     return _result(case, outcome, limits, section, method)
+
+
+def _fair_exact(case: Case, limits: Limits, start: Axis, found: Axis, section: Section, response: Response,
+                model: MomentModel, optimum: float, history: list[Iteration]):
+    """The fairest axis within the fairness tolerance of the optimum, for a model that is exact (one
+    program: no step, no region). Returns the axis, its response and loads (None: unchanged) and the
+    solver's time (s)."""
+    f = case.find
+    if (not f.fair or f.objective is Objective.RMS or assess(found).fair
+            or optimum <= FUNICULAR * _moment_scale(response, found, f.objective)):
+        return found, None, None, 0.0
+    n = found.count
+    h = horizontal_resultant(response, start)
+    limit = optimum * (1 + f.fairness_tolerance)
+    breaks = kink_stations(case, found.x)
+    fair, spent = found, 0.0
+    for _ in range(50):  # the vertical half-depth of clearance and envelope lines follows the shape
+        half = half_depth(section, fair)
+        data = ProgramData(model=model, c=objective_weights(f.objective, h, response, f.kern_fraction),
+                           w=tributary(start), g=limits.g, q=limits.rhs(half),
+                           lower=np.full(n, -np.inf), upper=np.full(n, np.inf))
+        y_fair, seconds = smoothest_within(limits.structure, data, limit, None, found.y)
+        spent += seconds
+        if y_fair is None:
+            return found, None, None, spent
+        fair = axis_through(found.x, y_fair, breaks)
+        if not (limits.clearance_rows.size or limits.envelope_rows.size):
+            break
+        if np.abs(half_depth(section, fair) - half).max() <= 1e-9 * found.span_m:
+            break
+    if float(np.abs(fair.y - found.y).max()) <= 1e-12 * found.span_m:
+        return found, None, None, spent
+    checked, loads, _ = analyse_governing(case, fair, section)
+    value = exact_value(f.objective, checked, fair, f.kern_fraction)
+    if value > limit * (1 + 1e-7) + 1e-12:  # the exact model cannot be out by more than round-off
+        return found, None, None, spent
+    history.append(Iteration(len(history) + 1, value, float(np.abs(y_fair - found.y).max()),
+                             float(np.abs(data.moments(y_fair) - checked.M).max())))
+    return fair, checked, loads, spent
 
 
 def _fixed_point(case: Case, axis: Axis, section: Section, limits: Limits) -> ShapeResult:
@@ -339,7 +407,7 @@ def _fixed_point(case: Case, axis: Axis, section: Section, limits: Limits) -> Sh
         return _result(case, outcome, limits, section, ShapeMethod.SEQUENTIAL)
     value = history[-1].objective
     if value <= FUNICULAR * _moment_scale(response, axis, f.objective):
-        outcome = Outcome(axis, response, loads, sol, tuple(history), elapsed)
+        outcome = Outcome(axis, response, loads, sol, tuple(history), elapsed, value)
         return _result(case, outcome, limits, section, ShapeMethod.FIXED_POINT)
     outcome = search(case, axis, section, limits)  # bending remains: the loads' own change matters too
     outcome = replace(outcome, history=tuple(history) + outcome.history, time_s=outcome.time_s + elapsed)
@@ -366,6 +434,7 @@ def _result(case: Case, outcome: Outcome, limits: Limits, section: Section, meth
     axis, response, loads, sol = outcome.axis, outcome.response, outcome.loads, outcome.solution
     checked = exact_value(f.objective, response, axis, f.kern_fraction)
     value = checked if method is ShapeMethod.SEQUENTIAL else outcome.history[-1].objective
+    optimum = outcome.optimum if np.isfinite(outcome.optimum) else value
     governing: list[GoverningPoint] = []
     active: list[ActiveConstraint] = []
     unit = UNITS[f.objective]
@@ -401,7 +470,7 @@ def _result(case: Case, outcome: Outcome, limits: Limits, section: Section, meth
     else:
         solver, status = sol.solver, sol.status.value
         bound = reported(f.objective, sol.dual_bound, loads.count, axis) if sol.dual_bound is not None else None
-        gap = (value - bound) / max(abs(value), floor, 1e-300) if bound is not None else float("nan")
+        gap = (optimum - bound) / max(abs(optimum), floor, 1e-300) if bound is not None else float("nan")
         stationarity = sol.stationarity
         for (name, block), mu, slack in zip(limits.structure.blocks, sol.block_duals, sol.block_slacks, strict=True):
             rows = np.flatnonzero((mu > 1e-9 * max(1.0, abs(sol.value))) & (slack <= 1e-5))
@@ -410,6 +479,16 @@ def _result(case: Case, outcome: Outcome, limits: Limits, section: Section, meth
                 active.append(ActiveConstraint(name, tuple(stations), float(mu[rows].sum()), f"{unit}/m"))
     governing.sort(key=lambda g: -g.multiplier)
     thrust = float(np.abs(response.thrust).max()) if response.count else float("nan")
+    fairness = assess(axis)
+    notes = list(fairness.warnings(f.concave))
+    loaded = set(kink_stations(case, axis.x))
+    if any(k.station in loaded for k in fairness.kinks):
+        notes.append("a point load acts at " + ", ".join(f"x = {k.x_m:.3f} m" for k in fairness.kinks
+                                                         if k.station in loaded)
+                     + ": the funicular kinks under a point load, and the axis follows it")
+    if f.fair and any(k.station not in loaded for k in fairness.kinks):
+        notes.append(f"a fairer axis would cost more than the fairness tolerance ({f.fairness_tolerance:.1%} of the "
+                     "optimum); raise [find] fairness_tolerance to trade more bending for a fairer axis")
     return ShapeResult(
         axis=axis,
         objective=f.objective,
@@ -429,4 +508,9 @@ def _result(case: Case, outcome: Outcome, limits: Limits, section: Section, meth
         section=section,
         states=loads.names,
         thrust_kN=thrust,
+        optimum=optimum,
+        symmetric=limits.symmetric,
+        fairness=fairness,
+        simple_curves=nearby_curves(axis),
+        warnings=tuple(notes),
     )

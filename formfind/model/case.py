@@ -186,7 +186,9 @@ class FindSettings:
     governing: tuple[str, ...] = ()
     rise_min_m: float | None = schema.default(schema.FIND, "rise_min_m")
     rise_max_m: float | None = schema.default(schema.FIND, "rise_max_m")
-    symmetric: bool = schema.default(schema.FIND, "symmetric")
+    symmetric: bool | None = schema.default(schema.FIND, "symmetric")
+    fair: bool = schema.default(schema.FIND, "fair")
+    fairness_tolerance: float = schema.default(schema.FIND, "fairness_tolerance")
     concave: bool = schema.default(schema.FIND, "concave")
     clearance: tuple[tuple[float, float], ...] = ()
     envelope: tuple[tuple[float, float], ...] = ()
@@ -724,6 +726,8 @@ def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[Load
         rise_min_m=lo,
         rise_max_m=hi,
         symmetric=f["symmetric"],
+        fair=f["fair"],
+        fairness_tolerance=f["fairness_tolerance"],
         concave=f["concave"],
         clearance=_polyline(f["clearance_x_m"], f["clearance_y_m"], span, file, "clearance"),
         envelope=_polyline(f["envelope_x_m"], f["envelope_y_m"], span, file, "envelope"),

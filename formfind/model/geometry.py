@@ -333,16 +333,23 @@ class Axis:
         """Ordinates of the chord polygon at arbitrary abscissae (m)."""
         return np.interp(x, self.x, self.y)
 
+    def _spline(self):
+        """The cubic Hermite interpolant of (x, y, slope); a vertical tangent's slope is capped."""
+        from scipy.interpolate import CubicHermiteSpline
+
+        return CubicHermiteSpline(self.x, self.y, np.clip(self.slope, -1e6, 1e6))
+
+    def smooth_ordinate(self, x: np.ndarray | float) -> np.ndarray:
+        """Ordinates (m) at arbitrary abscissae (m) by cubic Hermite interpolation of (x, y, slope)."""
+        return self._spline()(np.asarray(x, dtype=float))
+
     def resample(self, x_new: np.ndarray) -> Axis:
         """The axis at new abscissae, by cubic Hermite interpolation of (x, y, slope).
 
         Where a tangent is vertical (semicircle springing) the slope is capped for interpolation.
         """
-        from scipy.interpolate import CubicHermiteSpline
-
         x_new = np.asarray(x_new, dtype=float)
-        slope = np.clip(self.slope, -1e6, 1e6)
-        spline = CubicHermiteSpline(self.x, self.y, slope)
+        spline = self._spline()
         theta = np.arctan(spline(x_new, 1))
         exact = np.isin(x_new, self.x)
         theta[exact] = self.theta[np.searchsorted(self.x, x_new[exact])]

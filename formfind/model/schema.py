@@ -255,7 +255,13 @@ FIND = Table(
             "geometry's rise (a fixed rise).", "m", default=None, positive=True),
         Key("rise_max_m", "number", "Greatest rise above the springing chord anywhere; default: the "
             "geometry's rise.", "m", default=None, positive=True),
-        Key("symmetric", "boolean", "Keep the axis symmetric about midspan.", default=False),
+        Key("symmetric", "boolean", "Keep the axis symmetric about midspan; default: symmetric exactly when the "
+            "springings are level, the stations, supports and hinge symmetric and the governing loads mirror "
+            "each other (the found axis says which it took).", default=None),
+        Key("fair", "boolean", "Among the axes within fairness_tolerance of the optimum, return the fairest (least "
+            "change of curvature along the arch): no kinks or flat runs the optimum does not need.", default=True),
+        Key("fairness_tolerance", "number", "How much of the optimum a fair axis may give up (0.01: 1 % more "
+            "bending; common practice, no source).", default=0.01, positive=True, maximum=0.5),
         Key("concave", "boolean", "Keep the axis concave (d2y/dx2 <= 0 everywhere). Funiculars of downward "
             "loads are; it also stops the optimiser bending an indeterminate rib locally to tune its "
             "redundants. Switch off for axes that must sag somewhere.", default=True),

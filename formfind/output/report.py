@@ -188,6 +188,7 @@ def warnings(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | Non
         if shape.gap > 1e-3:
             out.append(f"Form finding's certificate leaves a relative gap of {shape.gap:.1e}: the axis may not be "
                        "the best one within its limits.")
+        out += [f"Found axis: {w[0].upper()}{w[1:]}." for w in shape.warnings]
     out.append("The load factors of the case file are the user's; examples shipped with formfind are examples only.")
     return out
 
@@ -252,7 +253,7 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
         limits = []
         if f.rise_min_m is not None or f.rise_max_m is not None:
             limits.append(f"rise between {numbers.length(f.rise_min_m)} and {numbers.length(f.rise_max_m)} m")
-        for on, text in ((f.symmetric, "symmetric axis"), (f.concave, "concave axis"),
+        for on, text in ((f.symmetric is True, "symmetric axis"), (f.concave, "concave axis"),
                          (bool(f.clearance), "clearance line (intrados)"), (bool(f.envelope), "site line (extrados)")):
             if on:
                 limits.append(text)
@@ -260,7 +261,12 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
             limits.append(f"slope at most {f.max_slope:g}")
         if f.max_curvature_per_m is not None:
             limits.append(f"curvature at most {f.max_curvature_per_m:g} 1/m")
-        rows = [["objective", f"{shape.objective.value} ({shape.unit})"], ["optimum", _num(shape.value, 6)],
+        fair = shape.fairness
+        curves = "; ".join(f"{c.name} {numbers.for_reading(1000.0 * c.deviation_m, 4)} mm at x = "
+                           f"{numbers.length(c.at_x_m)} m" for c in shape.simple_curves)
+        rows = [["objective", f"{shape.objective.value} ({shape.unit})"], ["certified optimum", _num(shape.optimum, 6)],
+                ["returned axis" + (f" (fairest within {f.fairness_tolerance:.1%})" if f.fair else ""),
+                 _num(shape.value, 6)],
                 ["checked by the exact engine", _num(shape.checked_value, 6)],
                 ["dual bound (no admissible axis does better)", _num(shape.dual_bound, 6)],
                 ["relative gap", Cell(f"{shape.gap:.1e}", shape.gap, True)],
@@ -269,7 +275,14 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
                 ["limits imposed", "; ".join(limits) or "none"],
                 ["constraints that bind", "; ".join(f"{a.name} ({len(a.stations)} stations, cost "
                                                     f"{numbers.for_reading(a.cost)} {a.unit})"
-                                                    for a in shape.active) or "none"]]
+                                                    for a in shape.active) or "none"],
+                ["symmetric axis", "yes" if shape.symmetric else "no"]]
+        if fair is not None:
+            rows.append(["largest turn between chords", f"{numbers.for_reading(fair.largest_turn_deg, 3)} deg at x = "
+                         f"{numbers.length(fair.largest_at_x_m)} m, {numbers.for_reading(fair.ratio, 3)} x the mean"
+                         + ("" if fair.fair else " (see the warnings)")])
+        if curves:
+            rows.append(["simple curves through the springings and rise (largest deviation)", curves])
         blocks += [Heading("Form finding"), _plain_table(["item", "value"], rows, widths=(1.6, 3))]
     return tuple(blocks)
 

@@ -275,6 +275,8 @@ def shape_json(result: ShapeResult, case_name: str) -> str:
             "objective": result.objective.value,
             "unit": result.unit,
             "value": result.value,
+            "optimum": result.optimum,
+            "fairness_cost": result.fairness_cost,
             "checked_value": result.checked_value,
             "dual_bound": result.dual_bound,
             "relative_gap": result.gap,
@@ -293,6 +295,20 @@ def shape_json(result: ShapeResult, case_name: str) -> str:
                  "cost_unit": a.unit}
                 for a in result.active
             ],
+            "symmetric": result.symmetric,
+            "fairness": None if result.fairness is None else {
+                "mean_turn_deg": result.fairness.mean_turn_deg,
+                "largest_turn_deg": result.fairness.largest_turn_deg,
+                "largest_turn_at_x_m": result.fairness.largest_at_x_m,
+                "largest_over_mean": result.fairness.ratio,
+                "kinks": [{"station": k.station, "x_m": k.x_m, "turn_deg": k.turn_deg, "over_mean": k.ratio}
+                          for k in result.fairness.kinks],
+                "flat_runs_x_m": [list(r) for r in result.fairness.flat_runs],
+                "reversals_x_m": list(result.fairness.reversals),
+            },
+            "simple_curves": [{"curve": c.name, "largest_deviation_mm": 1000.0 * c.deviation_m, "at_x_m": c.at_x_m}
+                              for c in result.simple_curves],
+            "warnings": list(result.warnings),
             "iterations": [
                 {"number": it.number, "objective": it.objective, "max_change_m": it.max_change_m,
                  "model_residual_kNm": it.residual_kNm}
