@@ -342,6 +342,12 @@ def _print_shape(shape) -> None:
     for a in shape.active:
         cost = "" if a.cost != a.cost else f", cost {for_reading(a.cost)} {a.unit}"
         print(f"active constraint: {a.name} at {len(a.stations)} station(s){cost}")
+    if shape.nearest is not None:
+        n = shape.nearest
+        print(f"nearest axis: largest deviation from the reference {for_reading(1000.0 * n.largest_deviation_m, 4)} mm "
+              f"at x = {length(n.largest_at_x_m)} m (RMS {for_reading(1000.0 * n.rms_deviation_m, 4)} mm); peak |M| "
+              f"{for_reading(n.peak_moment_kNm)} kNm ({n.peak_state} at x = {length(n.peak_at_x_m)} m) against the "
+              f"limit {for_reading(n.moment_limit_kNm)} kNm; the reference itself: {for_reading(n.reference_peak_moment_kNm)} kNm")
     if shape.fairness_cost > 0:
         print(f"fairness: the certified optimum is {significant(shape.optimum)} {shape.unit}; the fairer axis returned "
               f"costs {shape.fairness_cost:.2%} more")

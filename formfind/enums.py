@@ -87,6 +87,14 @@ class Objective(StrEnum):
     RMS = "rms"  # the root mean square of M along the arch, integral of M^2 ds (kNm)
     OFFSET = "offset"  # the largest vertical distance |M| / H between thrust line and axis (m)
     MIN_DEPTH = "min_depth"  # the least rib depth keeping every thrust line in the kern (m)
+    NEAREST = "nearest"  # the least deviation from a reference curve with |M| within a limit (m)
+
+
+class Deviation(StrEnum):
+    """How the distance between an axis and a reference curve is measured (vertically, at the stations)."""
+
+    LARGEST = "largest"  # the largest |y - y_ref| (m)
+    RMS = "rms"  # the root mean square of y - y_ref along the arch, weighted by tributary length (m)
 
 
 class Solver(StrEnum):
@@ -114,12 +122,21 @@ class ShapeMethod(StrEnum):
     PROGRAM = "convex program"  # one exact convex program
     FIXED_POINT = "fixed point on the loads"  # exact programs on the loads of the previous axis
     SEQUENTIAL = "sequential convex (local)"  # trust-region sequential convex programming
+    REFERENCE = "reference kept"  # nearest: the reference itself meets the limit and every constraint
 
 
 class DrawingUnit(StrEnum):
     """Unit of a DXF drawing."""
 
     MM = "mm"
+    M = "m"
+
+
+class ReferenceUnit(StrEnum):
+    """Unit of the coordinates in a reference curve's file."""
+
+    MM = "mm"
+    CM = "cm"
     M = "m"
 
 

@@ -16,6 +16,7 @@ import numpy as np
 from formfind.analysis.engine import frame_model, respond
 from formfind.analysis.frame import FrameModel
 from formfind.analysis.response import Response
+from formfind.analysis.sensitivity import MomentModel, statics_model
 from formfind.enums import Objective, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
@@ -204,3 +205,11 @@ def reported(objective: Objective, value: float, states: int, axis: Axis) -> flo
         total = float(np.sum(tributary(axis))) * states
         return float(np.sqrt(max(value, 0.0) / total))
     return value
+
+
+def frozen_model(axis: Axis, loads: StationLoads, response: Response, hinge: int) -> MomentModel:
+    """The moments of a three-hinged arch with its hinge held and its loads frozen on ``axis``: exactly
+    affine in y (diagonal under vertical loads)."""
+    if has_horizontal(loads):
+        return statics_model(axis, loads, response, hinge)
+    return MomentModel.diagonal(axis.x, axis.y, response.M, horizontal_resultant(response, axis))

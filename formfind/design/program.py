@@ -41,13 +41,14 @@ import numpy as np
 import scipy.sparse as sp
 
 from formfind.analysis.sensitivity import FX, FY, MO, MomentModel
-from formfind.design.convex import ConvexProblem, ConvexSolution, solve_convex
+from formfind.design.convex import ConvexProblem, ConvexSolution, lagrangian_bound, solve_convex
 from formfind.enums import Objective, Solver, SolveStatus
 
 INITIAL_STATES = 2  # per station and side, the most extreme states start the constraint generation
 SELECT_SLACK = 1e-7  # stage two may give up this fraction of the optimum to pick the smoothest axis
 TIE_BREAK = 1e-6  # weight of the per-station peaks against the governing peak (lexicographic tie-break)
 MAX_ROUNDS = 50
+NEAREST_SLACK = 1e-4  # the nearest axis's second stage may give up this fraction of the largest deviation
 
 
 @dataclass(frozen=True)
@@ -550,3 +551,155 @@ def _solve_rms(structure: Structure, data: ProgramData) -> ProgramSolution:
     slacks = tuple(np.asarray(qq) - blk @ y for (_, blk), qq in zip(structure.blocks, data.q, strict=True))
     return ProgramSolution(solution.status, y, value, bound, float(np.abs(residual).max() / scale), None, duals, slacks,
                            solution.zeta_up[:n] - solution.zeta_lo[:n], elapsed, solution.solver, k * n)
+
+
+# ------------------------------------------------------------------------------ the nearest axis
+@dataclass(frozen=True, eq=False)
+class NearestSolution:
+    """The axis nearest a reference with its moments within a limit (`nearest_within`).
+
+    Attributes:
+        status: how the (last) solve ended; ``y`` is None unless solved.
+        y: ordinates (n,), m.
+        deviation_m: the measure reached (largest |y - r| or its weighted RMS), m.
+        least_m: the least measure of the linear model (the fair axis may give up a slack of it), m.
+        bound_m: the Lagrangian dual bound on that measure (no axis of the linear model within the limit
+            is nearer), m; None if unavailable.
+        stationarity: residual of the dual's stationarity (relative).
+        moment_duals: (K, n) multipliers of the moment rows |M| <= limit: where the limit holds the axis
+            away from the reference, and how much each row costs (m per kNm).
+        solve_time_s, solver: of the solves.
+    """
+
+    status: SolveStatus
+    y: np.ndarray | None
+    deviation_m: float
+    bound_m: float | None
+    least_m: float
+    stationarity: float
+    moment_duals: np.ndarray | None
+    solve_time_s: float
+    solver: str
+
+
+def nearest_within(structure: Structure, data: ProgramData, limit_kNm: float, reference: np.ndarray,
+                   rms: bool, start: np.ndarray | None = None, fair_slack: float | None = None) -> NearestSolution:
+    """Among the axes whose linear-model moments satisfy |M[k, i]| <= c[k, i] limit (every other
+    constraint of the program too), the nearest to ``reference`` (n,): least largest vertical deviation
+    (an LP, then among its optima the least weighted sum of squares, so the axis is definite), or with
+    ``rms`` the least sum of w (y - r)^2 (a QP). Moment rows are generated as they are violated, from
+    the states extreme at each station of ``start`` (default: the reference).
+
+    Never raises for an infeasible or failed solve: the status says so.
+    """
+    model = data.model
+    n = model.stations
+    reference = np.asarray(reference, dtype=float)
+    started = time.perf_counter()
+    c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
+    w = np.asarray(data.w, dtype=float)
+    chosen = _initial_rows(data, reference if start is None else start)
+
+    def generate(quadratic: bool, cap: float | None, fair: bool = False):
+        """Solve on the chosen rows, adding every violated moment row until none is."""
+        for _ in range(MAX_ROUNDS):
+            problem, where = _nearest_problem(structure, data, chosen, limit_kNm, reference, quadratic, cap, fair)
+            solution = solve_convex(problem, Solver.CLARABEL if quadratic else _lp_solver(structure))
+            if not solution.solved:
+                return problem, where, solution
+            violated = (np.abs(model.moments(solution.z[:n])) > c * limit_kNm * (1 + 1e-9) + 1e-9) & ~chosen
+            if not violated.any():
+                return problem, where, solution
+            chosen[violated] = True
+        return problem, where, solution
+
+    problem, where, solution = generate(rms, None)
+    if not solution.solved:
+        return NearestSolution(solution.status, None, float("nan"), None, float("nan"), float("nan"), None,
+                               time.perf_counter() - started, solution.solver)
+    y = solution.z[:n]
+    kk, ii = np.nonzero(chosen)
+    duals = np.zeros((model.states, n))
+    duals[kk, ii] = solution.mu[where["up"]] + solution.mu[where["lo"]]
+    if rms:
+        value = float(np.sum(w * (y - reference) ** 2))
+        P = problem.P
+        z = solution.z
+        residual = (P @ z + problem.c + problem.A_ub.T @ solution.mu + problem.A_eq.T @ solution.nu
+                    - solution.zeta_lo + solution.zeta_up)
+        scale = max(float(np.abs(P @ z).max()), float(np.abs(problem.c).max()), 1e-300)
+        bound = value + float(solution.mu @ (problem.A_ub @ z - problem.b_ub))
+        total = float(w.sum())
+        rms_value = float(np.sqrt(value / total))
+        return NearestSolution(solution.status, y, rms_value, float(np.sqrt(max(bound, 0.0) / total)), rms_value,
+                               float(np.abs(residual).max() / scale), duals, time.perf_counter() - started,
+                               solution.solver)
+    bound, stationarity = lagrangian_bound(problem, solution)
+    best = float(solution.z[n])
+    # among the axes of least largest deviation, the nearest in the weighted sum of squares
+    if fair_slack is not None:  # the fairest axis within the slack of the least largest deviation
+        _, _, refined = generate(True, best + fair_slack * max(best, 1e-9), True)
+    else:
+        _, _, refined = generate(True, best + NEAREST_SLACK * max(best, 1e-9))
+    if refined.solved:
+        y = refined.z[:n]
+    deviation = float(np.abs(y - reference).max())
+    return NearestSolution(solution.status, y, deviation, min(bound, best), best, stationarity, duals,
+                           time.perf_counter() - started, solution.solver)
+
+
+def _lp_solver(structure: Structure) -> Solver:
+    return Solver.CLARABEL if structure.solver is Solver.AUTO else structure.solver
+
+
+def _nearest_problem(structure: Structure, data: ProgramData, chosen: np.ndarray, limit_kNm: float,
+                     reference: np.ndarray, quadratic: bool, cap_m: float | None,
+                     fair: bool = False) -> tuple[ConvexProblem, dict]:
+    """The nearest-axis program on the chosen moment rows: variables y, then t (the largest
+    deviation) unless ``quadratic`` without a cap, then the listed states' running sums. With
+    ``quadratic`` the objective is sum w (y - r)^2 (its constant dropped); ``cap_m`` bounds the largest
+    deviation (the second stage of the largest measure)."""
+    model = data.model
+    n = model.stations
+    with_t = not quadratic or cap_m is not None
+    own = 1 if with_t else 0
+    kk, ii = np.nonzero(chosen)
+    layout = _layout(model, np.unique(kk), own)
+    size = layout.size
+    eq, g, blocks, q = _common_rows(structure, data, size)
+    aux, aux_rhs = _aux_equalities(model, layout)
+    rows, const = _moment_rows(model, layout, kk, ii)
+    c = np.maximum(np.asarray(data.c, dtype=float), 0.0)
+    bound = c[kk, ii] * limit_kNm
+    parts = [blocks, rows, -rows]
+    rhs = [q, bound - const, bound + const]
+    if with_t:
+        eye = sp.identity(n, format="csr")
+        t_col = sp.csr_matrix((np.ones(n), (np.arange(n), np.full(n, n))), shape=(n, size))
+        parts += [_pad(eye, size) - t_col, -_pad(eye, size) - t_col]
+        rhs += [reference, -reference]
+    A_ub = sp.vstack(parts, format="csr")
+    b_ub = np.concatenate(rhs)
+    lower, upper = _bounds(data, size)
+    cost = np.zeros(size)
+    P = None
+    if with_t:
+        lower[n] = 0.0
+        if cap_m is not None:
+            upper[n] = cap_m
+    if quadratic and fair:  # least change of curvature (`fairness_matrix`), scaled to order one
+        curvature = fairness_matrix(model.x) if n > 3 else second_differences(model.x)
+        d3 = _pad(curvature / (float(np.abs(curvature).max()) or 1.0), size)
+        P = (2.0 * d3.T @ d3).tocsc()
+    elif quadratic:
+        w = np.asarray(data.w, dtype=float)
+        diag = np.zeros(size)
+        diag[:n] = 2.0 * w
+        P = sp.diags(diag, format="csc")
+        cost[:n] = -2.0 * w * reference
+    else:
+        cost[n] = 1.0
+    m = kk.size
+    where = {"up": slice(q.size, q.size + m), "lo": slice(q.size + m, q.size + 2 * m)}
+    return ConvexProblem(cost, A_ub, b_ub, sp.vstack([eq, aux], format="csr"), np.concatenate([g, aux_rhs]),
+                         lower, upper, P), where

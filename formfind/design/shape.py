@@ -26,12 +26,12 @@ divided by cos(theta) of the current axis. Curvature bounds act on d2y/dx2 (seco
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass, replace
+from dataclasses import replace
 
 import numpy as np
 
 from formfind.analysis.response import Response
-from formfind.analysis.sensitivity import MomentModel, statics_model
+from formfind.analysis.sensitivity import MomentModel
 from formfind.design.constraints import (
     Limits,
     build_limits,
@@ -39,10 +39,11 @@ from formfind.design.constraints import (
     infeasible_message,
     station_bounds,
 )
-from formfind.design.fairness import FairnessReport, assess
+from formfind.design.fairness import assess
 from formfind.design.governing import (
     analyse_governing,
     exact_value,
+    frozen_model,
     governing_groups,
     governing_loads,
     has_horizontal,
@@ -54,10 +55,12 @@ from formfind.design.governing import (
     reported,
     tributary,
 )
+from formfind.design.nearest import find_nearest, reference_axis
 from formfind.design.program import ProgramData, ProgramSolution, smoothest_within, solve_program
+from formfind.design.result import UNITS, ActiveConstraint, GoverningPoint, ShapeResult
 from formfind.design.separable import per_station_minimax
 from formfind.design.sequential import Iteration, Outcome, search
-from formfind.design.simple_curves import CurveDeviation, nearby_curves
+from formfind.design.simple_curves import nearby_curves
 from formfind.enums import Objective, ShapeMethod, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
@@ -79,101 +82,11 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
-UNITS = {Objective.MINIMAX: "kNm", Objective.RMS: "kNm", Objective.OFFSET: "m", Objective.MIN_DEPTH: "m"}
 ACTIVE_SLACK_M = 1e-7  # a constraint row counts as active within this slack
 ATTAINED = 1e-6  # a (state, station) governs where its moment is within this fraction of the optimum
 FIXED_POINT_TOLERANCE = 1e-10  # of the span: the fixed point on the loads stops when no ordinate moves more
 FIXED_POINT_ITERATIONS = 60  # ... or gives up (the sequential method takes over) after this many
 FUNICULAR = 1e-9  # of the moment scale H x rise: a governing moment this small is no moment at all
-
-
-@dataclass(frozen=True)
-class GoverningPoint:
-    """A state and station where the optimum is attained; ``multiplier`` is the certificate's weight on
-    it (1 for the per-station method, whose optimum needs none; 0 where another row carries it)."""
-
-    state: str
-    station: int
-    x_m: float
-    multiplier: float
-
-
-@dataclass(frozen=True)
-class ActiveConstraint:
-    """A constraint block with active rows: where, and what it costs.
-
-    ``cost`` is the sum of its multipliers: how much the objective would improve per metre of relief
-    of every active row (objective unit per m), e.g. kNm per m of a lower clearance line.
-    """
-
-    name: str
-    stations: tuple[int, ...]
-    cost: float
-    unit: str
-
-
-@dataclass(frozen=True, eq=False)
-class ShapeResult:
-    """The found axis and the evidence that it is best.
-
-    Attributes:
-        axis: the found axis (ordinates at the case's stations, tangents from a cubic spline).
-        objective: what was minimised; ``value`` its optimum in ``unit``.
-        checked_value: the objective re-evaluated by the exact engine on the found axis.
-        dual_bound: the program's dual bound in ``unit``: for the exact path a lower bound over every
-            admissible axis; for the fixed point the bound for the loads the found axis carries; for
-            the sequential path the bound of the program linearised at the found axis (a first-order
-            certificate). Equal to ``value`` for the exact per-station method.
-        gap: (value - dual_bound) / value (the value floored at 1e-9 of the moment scale, so a
-            funicular's vanishing optimum gives a vanishing gap).
-        stationarity: residual of the dual certificate (relative); small means the bound is sound.
-        governing: where the optimum is attained.
-        active: constraint blocks that bind, with their cost.
-        method: how it was found (`ShapeMethod`).
-        solver, status, solve_time_s: of the certifying solve (time summed over every solve).
-        iterations: the loop's history.
-        section: the rib used (its depth is the optimum for ``min_depth``).
-        states: names of the governing load states.
-        thrust_kN: the largest thrust H (kN) of the governing states on the found axis.
-        optimum: the objective of the certified optimum, in ``unit``; ``value`` (the returned axis's)
-            may exceed it by the fairness tolerance (``fairness_cost`` says by how much, as a fraction).
-        symmetric: whether the axis was kept symmetric (asked for, or found automatically).
-        fairness: kinks, flat runs and reversals of the returned axis (`formfind.design.fairness`).
-        simple_curves: the parabola, circle and catenary through the same springings and rise, each with
-            its largest deviation from the axis.
-        warnings: the fairness findings in words, for the designer to read.
-    """
-
-    axis: Axis
-    objective: Objective
-    value: float
-    unit: str
-    checked_value: float
-    dual_bound: float | None
-    gap: float
-    stationarity: float
-    governing: tuple[GoverningPoint, ...]
-    active: tuple[ActiveConstraint, ...]
-    method: ShapeMethod
-    solver: str
-    status: str
-    solve_time_s: float
-    iterations: tuple[Iteration, ...]
-    section: Section
-    states: tuple[str, ...]
-    thrust_kN: float = float("nan")
-    optimum: float = float("nan")
-    symmetric: bool = False
-    fairness: FairnessReport | None = None
-    simple_curves: tuple[CurveDeviation, ...] = ()
-    warnings: tuple[str, ...] = ()
-
-    @property
-    def fairness_cost(self) -> float:
-        """(value - optimum) / optimum: what fairness cost (0 where it cost nothing)."""
-        if not (np.isfinite(self.optimum) and self.optimum > 0):
-            return 0.0
-        return max(self.value - self.optimum, 0.0) / self.optimum
 
 
 # ------------------------------------------------------------------------------------ finding
@@ -253,9 +166,16 @@ def _find(case: Case, axis: Axis, section: Section) -> ShapeResult:
     loads = governing_loads(case, axis, section)
     if loads.count == 0:
         raise FormFindingError("no governing load states: name combinations or cases in [find] governing")
+    nearest = case.find.objective is Objective.NEAREST
+    if nearest:  # the architect's curve is the start, and its own symmetry counts too
+        axis = reference_axis(case, axis)
     mirrored = mirror_symmetric(case, axis, loads)
+    if nearest:
+        mirrored = mirrored and bool(np.abs(axis.y - axis.y[::-1]).max() <= 1e-9 * axis.span_m)
     symmetric = mirrored if case.find.symmetric is None else case.find.symmetric
     limits = build_limits(case, axis.x, axis.y, loads.count, symmetric, mirrored)
+    if nearest:
+        return find_nearest(case, axis, section, limits)
     three_hinged = case.supports.kind is SupportKind.THREE_HINGED
     if three_hinged and limits.fixed_rise and case.find.objective is not Objective.MIN_DEPTH:
         if not loads_move(case) and not has_horizontal(loads):
@@ -266,21 +186,13 @@ def _find(case: Case, axis: Axis, section: Section) -> ShapeResult:
 
 
 # ---------------------------------------------------------------------------- the exact program
-def _frozen_model(axis: Axis, loads: StationLoads, response: Response, hinge: int) -> MomentModel:
-    """The moments of a three-hinged arch with its hinge held and its loads frozen on ``axis``: exactly
-    affine in y (diagonal under vertical loads)."""
-    if has_horizontal(loads):
-        return statics_model(axis, loads, response, hinge)
-    return MomentModel.diagonal(axis.x, axis.y, response.M, horizontal_resultant(response, axis))
-
-
 def _solve_frozen(case: Case, axis: Axis, section: Section, limits: Limits, response: Response,
                   loads: StationLoads) -> tuple[np.ndarray, ProgramSolution | None, float]:
     """The optimal ordinates for the loads frozen on ``axis`` (exact), the certifying solution (None
     for the per-station method) and the solve time (s). Clearance and site lines are measured with the
     half-depth of the axis found, re-solved until it settles."""
     f = case.find
-    model = _frozen_model(axis, loads, response, limits.crown)
+    model = frozen_model(axis, loads, response, limits.crown)
     h = horizontal_resultant(response, axis)
     separable = f.objective is Objective.MINIMAX and not limits.coupled and model.steps is None
     current = axis
@@ -319,7 +231,7 @@ def _exact(case: Case, axis: Axis, section: Section, limits: Limits) -> ShapeRes
     """Three-hinged, hinge held, vertical loads independent of the shape: one solve is the optimum."""
     response, loads, _ = analyse_governing(case, axis, section)
     y_new, sol, elapsed = _solve_frozen(case, axis, section, limits, response, loads)
-    model = _frozen_model(axis, loads, response, limits.crown)
+    model = frozen_model(axis, loads, response, limits.crown)
     found = axis_through(axis.x, y_new, kink_stations(case, axis.x))
     checked, loads, _ = analyse_governing(case, found, section)
     residual = float(np.abs(model.moments(y_new) - checked.M).max())
@@ -390,7 +302,7 @@ def _fixed_point(case: Case, axis: Axis, section: Section, limits: Limits) -> Sh
         y_new, sol, spent = _solve_frozen(case, axis, section, limits, response, loads)
         elapsed += spent
         change = float(np.abs(y_new - axis.y).max())
-        model = _frozen_model(axis, loads, response, limits.crown)
+        model = frozen_model(axis, loads, response, limits.crown)
         axis = axis_through(axis.x, y_new, kink_stations(case, axis.x))
         response, loads, _ = analyse_governing(case, axis, section)
         residual = float(np.abs(model.moments(y_new) - response.M).max())

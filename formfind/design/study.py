@@ -35,6 +35,7 @@ from formfind.enums import PointStatus, Verdict
 from formfind.errors import ArgumentError, CaseError, FormfindError
 from formfind.model.case import Case, FindSettings, Supports
 from formfind.model.loads import LineLoad, LoadCase, NormalPressure, PointLoad
+from formfind.model.reference import ReferenceCurve
 from formfind.model.section import Section
 
 MAX_POINTS = 10_000  # a sweep larger than this is refused (documented in the README)
@@ -161,9 +162,15 @@ def case_at(case: Case, point: StudyPoint) -> Case:
     cases = tuple(LoadCase(c.name, tuple(_scale_load(ld, k) for ld in c.loads), c.action, c.description)
                   for c in case.cases)
     f = case.find
+    reference = f.reference
+    if reference is not None:  # the architect's curve is stretched like the geometry, above its chord
+        left, right = g.springing_left_m, g.springing_right_m
+        chord = left + (right - left) * reference.x_m / g.span_m
+        reference = ReferenceCurve(reference.x_m * k, chord + ky * (reference.y_m - chord), reference.smooth,
+                                   reference.source)
     find: FindSettings = replace(f, rise_min_m=point.rise_m, rise_max_m=point.rise_m,
                                  clearance=tuple((x * k, y) for x, y in f.clearance),
-                                 envelope=tuple((x * k, y) for x, y in f.envelope))
+                                 envelope=tuple((x * k, y) for x, y in f.envelope), reference=reference)
     section = case.section
     if point.depth_m is not None:
         section = _with_depth(section, point.depth_m)

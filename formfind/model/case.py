@@ -23,6 +23,7 @@ import numpy as np
 
 from formfind.enums import (
     ActionKind,
+    Deviation,
     DrawingUnit,
     DxfVersion,
     EccentricityLimit,
@@ -64,6 +65,7 @@ from formfind.model.loads import (
     SupportMovement,
     Temperature,
 )
+from formfind.model.reference import ReferenceCurve, ReferenceCurveError, curve_from_points, fit_to_span, read_reference
 from formfind.model.section import KN_M2_PER_MPA, Section
 
 log = logging.getLogger(__name__)
@@ -200,6 +202,9 @@ class FindSettings:
     tolerance_m: float | None = schema.default(schema.FIND, "tolerance_m")
     step_limit_m: float | None = schema.default(schema.FIND, "step_limit_m")
     optimality_gap: float = schema.default(schema.FIND, "optimality_gap")
+    reference: ReferenceCurve | None = None
+    moment_limit_kNm: float | None = schema.default(schema.FIND, "moment_limit_kNm")
+    deviation: Deviation = schema.default(schema.FIND, "deviation")
 
 
 HINGE_MARGIN_OF_SPAN = 0.01  # a crown hinge at least this fraction of the span from either springing
@@ -409,7 +414,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
     combinations = _combinations(data.get("combinations"), cases, file)
     _limits(cases, combinations, geometry, file)
     _warn_idle_fill(cases, geometry, file)
-    find = _find(find_raw, geometry, rib, cases, combinations, file)
+    find = _find(find_raw, geometry, rib, supports, cases, combinations, file)
     return Case(
         name=meta["name"],
         title=meta["title"],
@@ -704,15 +709,31 @@ def _polyline(xs: Any, ys: Any, span: float, file: str, key: str) -> tuple[tuple
     return tuple(zip(xs, ys, strict=True))
 
 
-def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[LoadCase, ...],
+def _find(f: dict[str, Any], geometry: Geometry, rib: Section, supports: Supports, cases: tuple[LoadCase, ...],
           combinations: tuple[Combination, ...], file: str) -> FindSettings:
     names = [c.name for c in combinations] + [c.name for c in cases]
     governing = f["governing"] or ()
     for i, name in enumerate(governing):
         if name not in names:
             raise CaseError(file, f"find.governing[{i}]", f"unknown combination or case {name!r}{schema.suggest(name, names)}")
+    reference = _reference(f, geometry, file)
     lo = geometry.rise_m if f["rise_min_m"] is None else f["rise_min_m"]
     hi = geometry.rise_m if f["rise_max_m"] is None else f["rise_max_m"]
+    if reference is not None:  # by default the reference's own rise: at the crown, and its highest point
+        span = geometry.span_m
+        crown = supports.hinge_at(span)
+        crown = 0.5 * span if crown is None else crown
+        chord = np.interp(reference.x_m, [0.0, span], [geometry.springing_left_m, geometry.springing_right_m])
+        at_crown = float(reference.ordinate(crown)) - float(np.interp(crown, [0.0, span], [
+            geometry.springing_left_m, geometry.springing_right_m]))
+        dense = np.linspace(0.0, span, 2001)
+        highest = float(np.max(np.concatenate([reference.y_m - chord, reference.ordinate(dense) - np.interp(
+            dense, [0.0, span], [geometry.springing_left_m, geometry.springing_right_m])])))
+        if not at_crown > 0:
+            raise CaseError(file, "find.reference_y_m", f"the reference curve must rise above the springing chord at "
+                            f"the crown (x = {crown:g} m); it is {at_crown:.4g} m there")
+        lo = at_crown if f["rise_min_m"] is None else f["rise_min_m"]
+        hi = max(highest, lo) if f["rise_max_m"] is None else f["rise_max_m"]
     if lo > hi:
         raise CaseError(file, "find.rise_min_m", f"expected rise_min_m <= rise_max_m ({hi:g} m), got {lo:g}")
     if f["symmetric"] and geometry.springing_left_m != geometry.springing_right_m:
@@ -739,4 +760,54 @@ def _find(f: dict[str, Any], geometry: Geometry, rib: Section, cases: tuple[Load
         tolerance_m=f["tolerance_m"],
         step_limit_m=f["step_limit_m"],
         optimality_gap=f["optimality_gap"],
+        reference=reference,
+        moment_limit_kNm=f["moment_limit_kNm"],
+        deviation=f["deviation"],
     )
+
+
+def _reference(f: dict[str, Any], geometry: Geometry, file: str) -> ReferenceCurve | None:
+    """The reference curve of the nearest objective, read and fitted to the span (None otherwise)."""
+    points = f["reference_x_m"] is not None or f["reference_y_m"] is not None
+    named = f["reference_file"] is not None
+    if f["objective"] is not Objective.NEAREST:
+        for key in ("reference_x_m", "reference_y_m", "reference_file", "reference_layer", "reference_unit",
+                    "moment_limit_kNm"):
+            if f[key] is not None:
+                raise CaseError(file, f"find.{key}", "applies only with objective = \"nearest\"")
+        return None
+    if f["moment_limit_kNm"] is None:
+        raise CaseError(file, "find.moment_limit_kNm", "missing; objective = \"nearest\" needs the largest |M| "
+                        "allowed, in kNm")
+    if points == named:
+        raise CaseError(file, "find.reference_x_m", "objective = \"nearest\" needs a reference curve: either "
+                        "reference_x_m and reference_y_m, or reference_file")
+    span = geometry.span_m
+    if named:
+        key = "find.reference_file"
+        path = Path(f["reference_file"])
+        if not path.is_absolute() and not file.startswith("<"):
+            path = Path(file).parent / path
+        if not path.is_file():
+            raise CaseError(file, key, f"expected a CSV or DXF file, {str(path)!r} is not a readable file")
+        if f["reference_layer"] is not None and path.suffix.lower() != ".dxf":
+            raise CaseError(file, "find.reference_layer", "applies only to a DXF reference_file")
+        try:
+            curve = read_reference(path, f["reference_unit"], f["reference_layer"])
+            return fit_to_span(curve, span, geometry.springing_left_m, geometry.springing_right_m,
+                               placed=path.suffix.lower() == ".dxf")
+        except ReferenceCurveError as exc:
+            raise CaseError(file, key, f"{path.name}: {exc}") from None
+        except OSError as exc:
+            raise CaseError(file, key, f"{path.name}: cannot be read ({exc.strerror})") from None
+    if f["reference_x_m"] is None or f["reference_y_m"] is None:
+        missing = "reference_y_m" if f["reference_y_m"] is None else "reference_x_m"
+        raise CaseError(file, f"find.{missing}", "missing; a reference curve needs both reference_x_m and reference_y_m")
+    for key in ("reference_unit", "reference_layer"):
+        if f[key] is not None:
+            raise CaseError(file, f"find.{key}", "applies only to reference_file (the points are in m)")
+    try:
+        curve = curve_from_points(f["reference_x_m"], f["reference_y_m"])
+        return fit_to_span(curve, span, geometry.springing_left_m, geometry.springing_right_m, placed=False)
+    except ReferenceCurveError as exc:
+        raise CaseError(file, "find.reference_x_m", str(exc)) from None

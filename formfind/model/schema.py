@@ -16,6 +16,7 @@ from typing import Any
 
 from formfind.enums import (
     ActionKind,
+    Deviation,
     DrawingUnit,
     DxfVersion,
     EccentricityLimit,
@@ -23,6 +24,7 @@ from formfind.enums import (
     LoadDirection,
     Objective,
     Projection,
+    ReferenceUnit,
     SecondOrderMethod,
     SectionVariation,
     ShapeKind,
@@ -247,8 +249,27 @@ FIND = Table(
     (
         Key("objective", Objective, "minimax: the largest |M| (kNm); rms: root mean square of M along the "
             "arch (kNm); offset: the largest vertical distance |M|/H between thrust line and axis (m); "
-            "min_depth: the least rib depth keeping every thrust line inside the kern (m).",
+            "min_depth: the least rib depth keeping every thrust line inside the kern (m); nearest: the axis "
+            "closest to a reference curve (reference_x_m / reference_y_m or reference_file) whose peak |M| stays "
+            "within moment_limit_kNm (m).",
             default=Objective.MINIMAX.value),
+        Key("reference_x_m", "numbers", "For nearest: abscissae of the reference curve from the left springing, "
+            "increasing from 0 to the span; a smooth cubic spline passes through the points.", "m", default=None),
+        Key("reference_y_m", "numbers", "For nearest: its ordinates, on the datum of the springing levels.", "m",
+            default=None),
+        Key("reference_file", "string", "For nearest, instead of the points: a CSV of x, y (m; a header line "
+            "is allowed) or a DXF holding one polyline or spline, in the drawing's unit ($INSUNITS: mm, cm "
+            "or m), placed so its left end lies on the left springing. Relative to the case file.",
+            default=None),
+        Key("reference_layer", "string", "For a DXF reference_file: the layer holding the curve (where it holds a "
+            "polyline and a spline of one axis, as formfind's own drawing does, the polyline); default: the only "
+            "curve in model space.", default=None, maximum=255),
+        Key("reference_unit", ReferenceUnit, "Unit of the reference file's coordinates; default: metres for a "
+            "CSV, the drawing's own unit for a DXF.", default=None),
+        Key("moment_limit_kNm", "number", "For nearest: the largest |M| allowed under every governing state.",
+            "kNm", default=None, positive=True, maximum=MAX_MAGNITUDE),
+        Key("deviation", Deviation, "For nearest: largest (the largest vertical distance to the reference) or "
+            "rms (its root mean square along the arch).", default=Deviation.LARGEST.value),
         Key("governing", "names", "Combinations or cases whose states govern; default: every combination "
             "(every case if there are none).", default=None),
         Key("rise_min_m", "number", "Least rise above the springing chord at the crown; default: the "

@@ -100,10 +100,16 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
     hinge = case.hinge_station(axis) if case.supports.kind is SupportKind.THREE_HINGED else None
     out: list[Diagram] = []
     lines = _thrust_lines(case, analysis)
+    reference = None
+    if case.find.reference is not None:
+        dense = np.linspace(0.0, axis.span_m, 401)
+        reference = np.column_stack([dense, case.find.reference.ordinate(dense)])
     out.append(Diagram("fig-axis", "The axis, the rib and the thrust lines of the governing combinations "
-                       f"({', '.join(label for label, _ in lines) or 'none'}); equal scales.",
+                       f"({', '.join(label for label, _ in lines) or 'none'})"
+                       + ("; dashed brown: the reference curve form finding kept near" if reference is not None else "")
+                       + "; equal scales.",
                        plots.plot_axis(axis, analysis.section.depth_m, lines, case.find.clearance, case.find.envelope,
-                                       hinge, colour_of)))
+                                       hinge, colour_of, reference=reference)))
     for stem, effect in (("fig-moment-along", "M"), ("fig-axial-along", "N"), ("fig-shear-along", "V")):
         peak = extreme(response, effect)
         k = response.names.index(peak.state)

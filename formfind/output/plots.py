@@ -150,10 +150,14 @@ def _rib(ax, axis: Axis, depth_m: np.ndarray) -> np.ndarray:
 
 
 def plot_axis(axis: Axis, depth_m: np.ndarray, thrust_lines=(), clearance=(), envelope=(), hinge_station=None,
-              colour_of: dict[str, str] | None = None, ax=None):
-    """The rib, the axis, thrust lines (label, points) and clearance / site lines (m), the supports."""
+              colour_of: dict[str, str] | None = None, ax=None, reference: np.ndarray | None = None):
+    """The rib, the axis, thrust lines (label, points), clearance / site lines (m), the supports, and
+    the architect's reference curve (points (n, 2), m) where form finding kept near one."""
     ax = ax or new_axes()
     outline = _rib(ax, axis, depth_m)
+    if reference is not None:
+        ax.plot(reference[:, 0], reference[:, 1], color="#8c564b", lw=1.0, ls=(0, (6, 3)), label="reference curve")
+        outline = np.vstack([outline, reference])
     ax.plot(axis.x, axis.y, color=AXIS_COLOUR, lw=1.3, label="axis")
     colour_of = colour_of or colours([label for label, _ in thrust_lines])
     for label, line in thrust_lines:

@@ -265,7 +265,8 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
         curves = "; ".join(f"{c.name} {numbers.for_reading(1000.0 * c.deviation_m, 4)} mm at x = "
                            f"{numbers.length(c.at_x_m)} m" for c in shape.simple_curves)
         rows = [["objective", f"{shape.objective.value} ({shape.unit})"], ["certified optimum", _num(shape.optimum, 6)],
-                ["returned axis" + (f" (fairest within {f.fairness_tolerance:.1%})" if f.fair else ""),
+                ["returned axis" + (f" (fairest within {f.fairness_tolerance:.1%})" if f.fair and shape.nearest is None
+                                    else ""),
                  _num(shape.value, 6)],
                 ["checked by the exact engine", _num(shape.checked_value, 6)],
                 ["dual bound (no admissible axis does better)", _num(shape.dual_bound, 6)],
@@ -283,6 +284,15 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
                          + ("" if fair.fair else " (see the warnings)")])
         if curves:
             rows.append(["simple curves through the springings and rise (largest deviation)", curves])
+        if shape.nearest is not None:
+            n = shape.nearest
+            rows += [["reference curve", f"{f.deviation.value} deviation minimised; moment limit "
+                      f"{numbers.for_reading(n.moment_limit_kNm)} kNm"],
+                     ["largest deviation from the reference", f"{numbers.for_reading(1000.0 * n.largest_deviation_m, 4)} mm "
+                      f"at x = {numbers.length(n.largest_at_x_m)} m (RMS {numbers.for_reading(1000.0 * n.rms_deviation_m, 4)} mm)"],
+                     ["peak |M| on the axis found", f"{numbers.for_reading(n.peak_moment_kNm)} kNm, {n.peak_state} at x = "
+                      f"{numbers.length(n.peak_at_x_m)} m" + (" (the limit binds)" if n.limit_binds else "")],
+                     ["peak |M| on the reference", f"{numbers.for_reading(n.reference_peak_moment_kNm)} kNm"]]
         blocks += [Heading("Form finding"), _plain_table(["item", "value"], rows, widths=(1.6, 3))]
     return tuple(blocks)
 

@@ -309,6 +309,20 @@ def shape_json(result: ShapeResult, case_name: str) -> str:
             "simple_curves": [{"curve": c.name, "largest_deviation_mm": 1000.0 * c.deviation_m, "at_x_m": c.at_x_m}
                               for c in result.simple_curves],
             "warnings": list(result.warnings),
+            "nearest": None if result.nearest is None else {
+                "deviation_measure": result.nearest.deviation.value,
+                "largest_deviation_m": result.nearest.largest_deviation_m,
+                "largest_deviation_signed_m": result.nearest.signed_largest_m,
+                "largest_deviation_at_x_m": result.nearest.largest_at_x_m,
+                "rms_deviation_m": result.nearest.rms_deviation_m,
+                "peak_moment_kNm": result.nearest.peak_moment_kNm,
+                "peak_moment_state": result.nearest.peak_state,
+                "peak_moment_at_x_m": result.nearest.peak_at_x_m,
+                "moment_limit_kNm": result.nearest.moment_limit_kNm,
+                "reference_peak_moment_kNm": result.nearest.reference_peak_moment_kNm,
+                "limit_binds": result.nearest.limit_binds,
+                "reference_y_m": result.nearest.reference_y_m,
+            },
             "iterations": [
                 {"number": it.number, "objective": it.objective, "max_change_m": it.max_change_m,
                  "model_residual_kNm": it.residual_kNm}
