@@ -165,6 +165,7 @@ class OutputSettings:
     dxf_version: DxfVersion = schema.default(schema.OUTPUTS, "dxf_version")
     setting_out_interval_m: float = schema.default(schema.OUTPUTS, "setting_out_interval_m")
     station_label_interval_m: float = schema.default(schema.OUTPUTS, "station_label_interval_m")
+    arc_tolerance_mm: float = schema.default(schema.OUTPUTS, "arc_tolerance_mm")
 
 
 @dataclass(frozen=True)

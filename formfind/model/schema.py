@@ -324,6 +324,9 @@ OUTPUTS = Table(
             default=1.0, positive=True),
         Key("station_label_interval_m", "number", "Spacing in x of the labelled station ticks on the drawing.",
             "m", default=5.0, positive=True),
+        Key("arc_tolerance_mm", "number", "The axis as the fewest tangent-continuous circular arcs within this "
+            "distance of it (rolled steel, glulam laminated on radii): arcs.csv and the FF_ARCS layer of the "
+            "drawing.", "mm", default=5.0, positive=True, maximum=1000.0),
     ),
 )
 

@@ -34,6 +34,7 @@ import numpy as np
 
 from formfind import __version__
 from formfind.enums import DrawingUnit
+from formfind.model.arcs import Arc
 from formfind.model.geometry import Axis
 from formfind.output import numbers
 from formfind.output.files import write_bytes
@@ -61,6 +62,7 @@ class Layer:
 
 LAYERS = (
     Layer("FF_AXIS", 1, "CONTINUOUS", 50, "the arch axis: polyline through the stations and control-point spline"),
+    Layer("FF_ARCS", 4, "CONTINUOUS", 35, "the axis as tangent-continuous circular arcs for fabrication (arcs.csv)"),
     Layer("FF_RIB", 7, "CONTINUOUS", 35, "intrados and extrados of the rib"),
     Layer("FF_THRUST", 3, "DASHED", 25, "thrust lines of the governing load states"),
     Layer("FF_LIMITS", 6, "DASHDOT", 25, "clearance line and site envelope"),
@@ -89,6 +91,7 @@ class DrawingContent:
         clearance, envelope: polylines ((x, y), ...) or empty.
         sheet: title-block fields (label, value), in order.
         setting_out: rows of the setting-out table (point, x, y, theta deg, arc length), m and deg.
+        arcs: the axis as circular arcs (`formfind.model.arcs`), drawn on FF_ARCS.
         issue_date: ISO date for the header's dates ("" for a fixed date).
     """
 
@@ -103,6 +106,7 @@ class DrawingContent:
     sheet: tuple[tuple[str, str], ...] = ()
     setting_out: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
     issue_date: str = ""
+    arcs: tuple[Arc, ...] = ()
 
 
 # -------------------------------------------------------------------------- label boxes, no CAD
@@ -184,6 +188,16 @@ def build_drawing(content: DrawingContent, unit: DrawingUnit = DrawingUnit.MM, v
     msp.add_lwpolyline([tuple(p) for p in pts], dxfattribs={"layer": "FF_AXIS"})
     bspline = global_bspline_interpolation([(float(px), float(py), 0.0) for px, py in pts], degree=3)
     msp.add_spline(dxfattribs={"layer": "FF_AXIS"}).apply_construction_tool(bspline)
+    for arc in content.arcs:  # counter-clockwise from start_angle to end_angle, as DXF draws arcs
+        if arc.centre is None:
+            msp.add_line(tuple(np.array(arc.start) * scale), tuple(np.array(arc.end) * scale),
+                         dxfattribs={"layer": "FF_ARCS"})
+            continue
+        c = np.array(arc.centre)
+        a0 = math.degrees(math.atan2(arc.start[1] - c[1], arc.start[0] - c[0]))
+        a1 = math.degrees(math.atan2(arc.end[1] - c[1], arc.end[0] - c[0]))
+        start_angle, end_angle = (a0, a1) if arc.turn_deg > 0 else (a1, a0)
+        msp.add_arc(tuple(c * scale), arc.radius_m * scale, start_angle, end_angle, dxfattribs={"layer": "FF_ARCS"})
     for face in (axis.intrados(content.depth_m), axis.extrados(content.depth_m)):
         msp.add_lwpolyline([tuple(p) for p in face * scale], dxfattribs={"layer": "FF_RIB"})
 

@@ -20,6 +20,7 @@ from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import envelopes, extreme, thrust_line
 from formfind.design.shape import ShapeResult, governing_groups
 from formfind.enums import SupportKind
+from formfind.model.arcs import fit_arcs
 from formfind.model.case import Case
 from formfind.output import files, numbers, plots, report, tables
 from formfind.output.dxf import DrawingContent, build_drawing, drawing_text
@@ -72,7 +73,7 @@ def drawing_bytes(case: Case, analysis: CaseAnalysis) -> bytes:
     rows = tables.setting_out_rows(axis, analysis.section, case.outputs.setting_out_interval_m)
     content = DrawingContent(case.name, case.title, axis, analysis.section.depth_m, hinge,
                              _thrust_lines(case, analysis), case.find.clearance, case.find.envelope, sheet,
-                             rows[:, :5], d.issue_date)
+                             rows[:, :5], d.issue_date, fit_arcs(axis, 1e-3 * case.outputs.arc_tolerance_mm))
     doc = build_drawing(content, case.outputs.drawing_unit, case.outputs.dxf_version.value,
                         case.outputs.station_label_interval_m)
     return drawing_text(doc, d.issue_date).encode("utf-8")
@@ -193,6 +194,7 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
         out["axis.csv"] = tables.axis_csv(shape.axis, section).encode()
         out["setting-out.csv"] = tables.setting_out_csv(shape.axis, section,
                                                         case.outputs.setting_out_interval_m).encode()
+        out["arcs.csv"] = tables.arcs_csv(fit_arcs(shape.axis, 1e-3 * case.outputs.arc_tolerance_mm)).encode()
     if analysis is not None:
         out["analysis.json"] = tables.analysis_json(analysis).encode()
         out["forces.csv"] = tables.forces_csv(analysis).encode()
@@ -204,6 +206,7 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
         if shape is None:
             out["setting-out.csv"] = tables.setting_out_csv(analysis.axis, analysis.section,
                                                             case.outputs.setting_out_interval_m).encode()
+            out["arcs.csv"] = tables.arcs_csv(fit_arcs(analysis.axis, 1e-3 * case.outputs.arc_tolerance_mm)).encode()
         if drawings:
             out["axis.dxf"] = drawing_bytes(case, analysis)
             figures = diagrams(case, analysis, checks)

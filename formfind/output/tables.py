@@ -22,6 +22,7 @@ from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
 from formfind.design.check import CheckResult
 from formfind.design.shape import ShapeResult
+from formfind.model.arcs import Arc
 from formfind.model.geometry import Axis
 from formfind.model.section import SectionAlong
 from formfind.output import numbers
@@ -347,6 +348,23 @@ def setting_out_csv(axis: Axis, section: SectionAlong, interval_m: float) -> str
     header = ["point", "x_m", "y_m", "theta_deg", "arc_length_m", "depth_m", "intrados_x_m", "intrados_y_m",
               "extrados_x_m", "extrados_y_m"]
     return _rows_csv(header, [list(range(rows.shape[0]))], rows[:, 1:], SETTING_OUT_KINDS)
+
+
+ARC_KINDS = ["length"] * 8 + ["angle", "significant"]
+
+
+def arcs_csv(arcs: tuple[Arc, ...]) -> str:
+    """The axis as circular arcs for fabrication (`formfind.model.arcs`): per arc its stations, end
+    points, radius and centre (empty for a straight piece), length, turn and largest deviation from the
+    axis; m, degrees (negative: turning clockwise, as an arch does from left to right) and mm."""
+    header = ["arc", "start_station", "end_station", "start_x_m", "start_y_m", "end_x_m", "end_y_m", "radius_m",
+              "centre_x_m", "centre_y_m", "length_m", "turn_deg", "max_deviation_mm"]
+    nan = float("nan")
+    values = np.array([[a.start[0], a.start[1], a.end[0], a.end[1], a.radius_m if a.centre else nan,
+                        a.centre[0] if a.centre else nan, a.centre[1] if a.centre else nan, a.length_m, a.turn_deg,
+                        1000.0 * a.max_deviation_m] for a in arcs]).reshape(len(arcs), 10)
+    return _rows_csv(header, [list(range(1, len(arcs) + 1)), [a.start_station for a in arcs],
+                              [a.end_station for a in arcs]], values, ARC_KINDS)
 
 
 def setting_out_rows(axis: Axis, section: SectionAlong, interval_m: float) -> np.ndarray:
