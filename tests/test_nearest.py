@@ -13,6 +13,7 @@ Sources:
 
 from __future__ import annotations
 
+import hashlib
 import tomllib
 
 import ezdxf
@@ -203,6 +204,7 @@ def test_a_csv_reference_in_millimetres(tmp_path):
     data["find"].update(reference_file=str(tmp_path / "ref.csv"), reference_unit="mm")
     curve = parse_case(data).find.reference
     np.testing.assert_allclose(curve.ordinate(xs), _circle(xs), atol=1e-9)
+    assert curve.sha256 == hashlib.sha256(text.encode()).hexdigest()  # named in the report beside the case file
 
 
 @pytest.mark.parametrize("change,key,message", [

@@ -167,7 +167,7 @@ def case_at(case: Case, point: StudyPoint) -> Case:
         left, right = g.springing_left_m, g.springing_right_m
         chord = left + (right - left) * reference.x_m / g.span_m
         reference = ReferenceCurve(reference.x_m * k, chord + ky * (reference.y_m - chord), reference.smooth,
-                                   reference.source)
+                                   reference.source, reference.sha256)
     find: FindSettings = replace(f, rise_min_m=point.rise_m, rise_max_m=point.rise_m,
                                  clearance=tuple((x * k, y) for x, y in f.clearance),
                                  envelope=tuple((x * k, y) for x, y in f.envelope), reference=reference)

@@ -12,8 +12,9 @@ drawing's origin is rarely the arch's. The curve must run from one springing to 
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 from pathlib import Path
 
@@ -42,6 +43,7 @@ class ReferenceCurve:
     y_m: np.ndarray
     smooth: bool
     source: str
+    sha256: str = ""  # of the file it was read from ("" for points in the case file)
 
     @cached_property
     def _spline(self):
@@ -146,13 +148,12 @@ def read_dxf(path: Path, unit: ReferenceUnit | None, layer: str | None = None) -
 
 
 def read_reference(path: Path, unit: ReferenceUnit | None, layer: str | None = None) -> ReferenceCurve:
-    """A reference from a CSV or DXF file (by its suffix)."""
+    """A reference from a CSV or DXF file (by its suffix), with the file's SHA-256."""
     suffix = path.suffix.lower()
-    if suffix == ".dxf":
-        return read_dxf(path, unit, layer)
-    if suffix in (".csv", ".txt"):
-        return read_csv(path, unit)
-    raise ReferenceCurveError(f"expected a .csv or .dxf file, got {path.suffix or 'no suffix'!r}")
+    if suffix not in (".dxf", ".csv", ".txt"):
+        raise ReferenceCurveError(f"expected a .csv or .dxf file, got {path.suffix or 'no suffix'!r}")
+    curve = read_dxf(path, unit, layer) if suffix == ".dxf" else read_csv(path, unit)
+    return replace(curve, sha256=hashlib.sha256(path.read_bytes()).hexdigest())
 
 
 def _read_text(path: Path) -> str:
@@ -178,7 +179,7 @@ def fit_to_span(curve: ReferenceCurve, span_m: float, left_m: float, right_m: fl
                              " (check the unit)")
     x = x.copy()
     x[0], x[-1] = 0.0, span_m
-    fitted = ReferenceCurve(x, y, curve.smooth, curve.source)
+    fitted = ReferenceCurve(x, y, curve.smooth, curve.source, curve.sha256)
     for end, level, name in ((0.0, left_m, "left"), (span_m, right_m, "right")):
         at = float(fitted.ordinate(end))
         if abs(at - level) > 1e-3:

@@ -198,6 +198,9 @@ def _cover(case: Case) -> tuple:
     ver = versions()
     rows = [["case", case.name], ["case file", Path(case.source).name if case.source else "(built in code)"],
             ["case file SHA-256", input_digest(case) or "(no file)"]]
+    reference = case.find.reference
+    if reference is not None and reference.sha256:
+        rows += [["reference curve file", reference.source], ["reference curve file SHA-256", reference.sha256]]
     rows += [[f"version of {k}", v] for k, v in ver.items()]
     signoff = _plain_table(["project", "job number", "revision", "date of issue"],
                            [[d.project or "-", d.job_number or "-", d.revision or "-", d.issue_date or "-"]],
