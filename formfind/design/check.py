@@ -36,13 +36,13 @@ from formfind.analysis import statics
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.frame import influence_lines, unit_loads
 from formfind.analysis.response import EFFECTS, Response
-from formfind.enums import ActionKind, EccentricityLimit, SecondOrderMethod, SupportKind, Verdict
+from formfind.analysis.stability import design_moments
+from formfind.enums import ActionKind, EccentricityLimit, SupportKind, Verdict
 from formfind.model.case import Case
 from formfind.model.loads import StationLoads
 
 FAIL, PASS, INFO = Verdict.FAIL, Verdict.PASS, Verdict.INFO
 PATTERN = "patterned live load"
-P_DELTA_STATES = 8  # P-Delta solves per combination at most; its other states (train positions) are amplified
 
 
 @dataclass(frozen=True)
@@ -134,14 +134,15 @@ class CheckResult:
         rows: one per check (and one thrust row per combination).
         stress_max, stress_min: (states, stations) extreme-fibre stresses of the combination states,
             kN/m2, tension positive (second-order where applied; patterned load not included).
-        amplification: (states,) ratio of the second-order to the first-order peak |M| of each state
-            (1 = first order).
-        second_order: (states,) how each state's moments were found: "first-order", "p-delta" or
-            "amplification".
+        amplification: (states,) ratio of the design (imperfect, second-order) to the first-order peak |M|
+            of each state (1 = first order, perfect arch).
+        second_order: (states,) how each state's moments were found (`formfind.analysis.stability`):
+            "first-order", "imperfect first-order", "p-delta", "amplification" or "beyond buckling".
         pattern: the patterned live load's envelopes, or None.
         patterned_groups: (group, factor) of the combinations the patterned load was added to.
         thrust_lines: admissibility of every state (unreinforced ribs only).
         collapse: collapse load factors of ``collapse_case`` per position (unreinforced ribs only).
+        imperfections: the initial imperfection of each combination (`formfind.analysis.stability`).
     """
 
     rows: tuple[CheckRow, ...]
@@ -153,6 +154,7 @@ class CheckResult:
     patterned_groups: tuple[tuple[str, float], ...] = ()
     thrust_lines: tuple[ThrustLineRow, ...] = ()
     collapse: tuple = ()
+    imperfections: tuple = ()
 
     @property
     def passed(self) -> bool:
@@ -164,51 +166,6 @@ class CheckResult:
         """The row of largest utilisation."""
         rated = [r for r in self.rows if r.utilisation is not None]
         return max(rated, key=lambda r: r.utilisation) if rated else None
-
-
-def _second_order(case: Case, analysis: CaseAnalysis, response: Response):
-    """Second-order M and N per state where the group's buckling factor is below the threshold.
-
-    Returns (M, N, N_left, method per state, amplification per state, buckling factor per group).
-    """
-    settings = case.check
-    alpha = {b.group: b.critical_factor for b in analysis.buckling}
-    M, N, N_left = response.M.copy(), response.N.copy(), response.N_left.copy()
-    method = ["first-order"] * response.count
-    ratio = np.ones(response.count)
-    low = [k for k, g in enumerate(response.groups) if alpha.get(g, np.inf) < settings.second_order_below]
-    if not low:
-        return M, N, N_left, tuple(method), ratio, alpha
-    beyond = [k for k in low if alpha[response.groups[k]] <= 1.0]
-    usable = [k for k in low if k not in beyond]
-    for k in beyond:  # at or above the buckling load: no equilibrium exists; first-order values, marked
-        method[k] = "beyond buckling"
-    solved: list[int] = []
-    if usable and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None:
-        from formfind.analysis.second_order import second_order
-
-        # a moving train gives a combination many states: the P-Delta solve (one factorisation per
-        # state and iteration) goes to the P_DELTA_STATES of largest first-order moment in each group
-        for group in dict.fromkeys(response.groups[k] for k in usable):
-            mine = [k for k in usable if response.groups[k] == group]
-            peaks = np.abs(response.M[mine]).max(axis=1)
-            solved += [mine[j] for j in np.argsort(-peaks, kind="stable")[:P_DELTA_STATES]]
-        solved.sort()
-        loads = analysis.loads.combinations if analysis.combinations.count else analysis.loads.cases
-        result = second_order(analysis.frame, loads.select(solved)).response
-        for j, k in enumerate(solved):
-            peak1 = float(np.abs(M[k]).max())
-            M[k], N[k], N_left[k] = result.M[j], result.N[j], result.N_left[j]
-            ratio[k] = float(np.abs(M[k]).max()) / peak1 if peak1 > 0 else 1.0
-            method[k] = "p-delta"
-    for k in usable:
-        if k in solved:
-            continue
-        a = alpha[response.groups[k]]
-        ratio[k] = 1.0 / (1.0 - 1.0 / a)
-        M[k] = M[k] * ratio[k]
-        method[k] = "amplification"
-    return M, N, N_left, tuple(method), ratio, alpha
 
 
 def pattern_envelope(case: Case, analysis: CaseAnalysis, load_kN_m: float) -> PatternEnvelope:
@@ -264,7 +221,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     response = analysis.combinations if analysis.combinations.count else analysis.cases
     sec = analysis.section
     x = analysis.axis.x
-    M, N_right, N_left, method, ratio, alpha = _second_order(case, analysis, response)
+    design = design_moments(case, analysis, response)
+    M, N_right, N_left, method, alpha = design.M, design.N, design.N_left, design.method, design.alpha
     N = np.minimum(N_right, N_left) if response.count else N_right  # the more compressive side
     A, W = sec.area_m2[None, :], sec.section_modulus_m3[None, :]
     with np.errstate(invalid="ignore"):
@@ -277,17 +235,22 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     if settings.patterned_load_kN_m is not None:
         pattern = pattern_envelope(case, analysis, settings.patterned_load_kN_m)
     rows: list[CheckRow] = []
-    used = sorted(set(method) - {"first-order", "beyond buckling"})
+    used = sorted(set(method) - {"first-order", "imperfect first-order", "beyond buckling"})
     note = ""
     if used:
         note = f"second-order moments by {' and '.join(used)} where alpha < {settings.second_order_below:g}"
+    if design.imperfections:
+        first = next(iter(design.imperfections.values()))
+        amplitude = first.describe(analysis.axis.span_m).split(", sign")[0].split("amplitude ")[1]
+        note = "; ".join(t for t in (note, f"on the arch with an initial imperfection in each combination's lowest "
+                                           f"buckling mode, amplitude {amplitude}, sign adverse") if t)
     if "beyond buckling" in method:
         note = "; ".join(t for t in (note, "some states are at or beyond their buckling load (alpha <= 1): no "
                                            "equilibrium exists there and their first-order values do not hold") if t)
     if pattern is not None:
         rows += _pattern_rows(pattern, settings.patterned_load_kN_m)
     to_mpa = 1e-3
-    terms = _pattern_terms(pattern, added, response, ratio, alpha)
+    terms = _pattern_terms(pattern, added, response, design.amplified, alpha)
     low, high = _stress_sets(response, fibre_a, fibre_b, pattern, terms, sec)
     if settings.compression_limit_kN_m2 is not None:
         limit = settings.compression_limit_kN_m2
@@ -307,6 +270,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     for group, a in alpha.items():
         util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else None
         so = f"second-order by {_group_method(response, method, group)}" if a < settings.second_order_below else ""
+        if group in design.imperfections:
+            so = "; ".join(t for t in (so, design.imperfections[group].describe(analysis.axis.span_m)) if t)
         if a <= 1.0:
             so = "at or beyond its buckling load: no equilibrium exists under this combination"
         if not np.isfinite(a):
@@ -332,7 +297,11 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     if settings.unreinforced:
         thrust_rows, collapse, extra_rows = _unreinforced(case, analysis)
         rows += extra_rows
-    return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse)
+    first = np.abs(response.M).max(axis=1) if response.count else np.zeros(0)
+    ratio = np.divide(np.abs(M).max(axis=1) if response.count else np.zeros(0), first, out=np.ones_like(first),
+                      where=first > 0)
+    return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse,
+                       tuple(design.imperfections.values()))
 
 
 def _group_method(response: Response, method: tuple[str, ...], group: str) -> str:
@@ -352,20 +321,20 @@ def _pattern_rows(pattern: PatternEnvelope, load: float) -> list[CheckRow]:
     return rows
 
 
-def _pattern_amplification(response: Response, ratio: np.ndarray, alpha: dict[str, float], k: int) -> float:
+def _pattern_amplification(response: Response, amplified: np.ndarray, alpha: dict[str, float], k: int) -> float:
     """Second-order factor on the patterned load's moments in state k's group: 1 / (1 - 1/alpha)."""
-    if ratio[k] == 1.0:
+    if not amplified[k]:
         return 1.0
     a = alpha.get(response.groups[k], np.inf)
     return 1.0 / (1.0 - 1.0 / a) if a > 1.0 else 1.0
 
 
-def _pattern_terms(pattern, added, response, ratio, alpha):
+def _pattern_terms(pattern, added, response, amplified, alpha):
     """Per state: (factor f, moment amplification) of the patterned load added, or None."""
     if pattern is None or not added:
         return [None] * response.count
     return [None if response.groups[k] not in added else
-            (added[response.groups[k]], _pattern_amplification(response, ratio, alpha, k))
+            (added[response.groups[k]], _pattern_amplification(response, amplified, alpha, k))
             for k in range(response.count)]
 
 

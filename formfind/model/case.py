@@ -148,6 +148,7 @@ class CheckSettings:
     eccentricity_limit: EccentricityLimit = schema.default(schema.CHECK, "eccentricity_limit")
     min_buckling_factor: float = schema.default(schema.CHECK, "min_buckling_factor")
     second_order_below: float = schema.default(schema.CHECK, "second_order_below")
+    imperfection_over_span: float = schema.default(schema.CHECK, "imperfection_over_span")
     second_order: SecondOrderMethod = schema.default(schema.CHECK, "second_order")
     patterned_load_kN_m: float | None = None
     patterned_factors: tuple[tuple[str, float], ...] = ()
@@ -437,6 +438,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             eccentricity_limit=check_raw["eccentricity_limit"],
             min_buckling_factor=check_raw["min_buckling_factor"],
             second_order_below=check_raw["second_order_below"],
+            imperfection_over_span=check_raw["imperfection_over_span"],
             second_order=check_raw["second_order"],
             patterned_load_kN_m=check_raw["patterned_load_kN_m"],
             patterned_factors=_patterned_factors(check_raw, cases, combinations, file),

@@ -345,6 +345,10 @@ CHECK = Table(
             default=1.0, positive=True),
         Key("second_order_below", "number", "Buckling factors below this amplify moments by "
             "1 / (1 - 1/alpha) (10 for elastic analysis is common practice).", default=10.0, positive=True),
+        Key("imperfection_over_span", "number", "Amplitude of the initial imperfection, as a fraction of the span, "
+            "given the shape of each combination's lowest in-plane buckling mode (sign adverse) before the "
+            "checks' moments are found; 0: a perfect arch. The default 1/500 is an example, not a code value: "
+            "take yours from the governing code.", default=0.002, minimum=0.0, maximum=0.05),
         Key("second_order", SecondOrderMethod, "How second-order moments are found where a buckling factor "
             "is below second_order_below: a P-Delta solve on the deflected arch, or the amplification "
             "1 / (1 - 1/alpha).", default=SecondOrderMethod.P_DELTA.value),

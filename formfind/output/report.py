@@ -250,6 +250,18 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
             f"Engine: {engine} ({kind}). {analysis.axis.count} stations ({case.stations.spacing.value} spacing), "
             f"arc length {numbers.length(analysis.axis.length_m)} m. Shear deformation: "
             f"{'on' if case.analysis.shear_deformation else 'off'}. Buckling: {buckling}."))
+        ratio = case.check.imperfection_over_span
+        if analysis.buckling and ratio > 0:
+            blocks.append(Paragraph(
+                f"Imperfection: the checks use each combination's moments on the arch displaced by its lowest "
+                f"in-plane buckling mode, amplitude span/{1 / ratio:.0f} = {numbers.length(ratio * analysis.axis.span_m)} m, "
+                f"with the adverse sign; where the buckling factor is below {case.check.second_order_below:g} they are "
+                f"found to second order on that imperfect arch ({case.check.second_order.value.replace('_', '-')}). "
+                "The amplitude is the case's ([check] imperfection_over_span; the default is an example, not a code "
+                "value)."))
+        elif analysis.buckling:
+            blocks.append(Paragraph("Imperfection: none ([check] imperfection_over_span = 0): the checks use the "
+                                    "perfect arch."))
     blocks.append(Paragraph(f"Sign conventions: {SIGN_CONVENTION}"))
     if shape is not None:
         f = case.find
