@@ -161,23 +161,26 @@ def design_moments(case: Case, analysis: CaseAnalysis, response: Response) -> De
 
 
 def _adverse(case: Case, analysis: CaseAnalysis, loads: StationLoads, b: BucklingResult, amplitude_m: float):
-    """The imperfection of the adverse sign for one combination: (Imperfection, first-order response
-    on the imperfect axis, its frame model or None), or None if the mode cannot be applied."""
+    """The imperfection of the adverse sign for one combination: (Imperfection, first-order response of
+    its states on the imperfect axis, its frame model or None), or None if the mode cannot be applied.
+    The sign is chosen on the combination's buckling reference state (its largest thrust), whose mode
+    it is; its other states (train positions) are then analysed with that sign only."""
     mode = b.modes[0]
     largest = float(np.abs(mode[:, :2]).max())
     if not largest > 0:
         return None
+    reference = [loads.names.index(b.state)] if b.state in loads.names else list(range(loads.count))
     best = None
     for sign in (1, -1):
         displacement = sign * amplitude_m / largest * mode
         axis = imperfect_axis(analysis.axis, displacement)
         if not np.all(np.diff(axis.x) > 0):
             return None  # an amplitude this large folds the arch over: no meaningful imperfection
-        section = case.section.at(axis)
-        model = frame_model(case, axis, section, estimate_condition=False) if analysis.frame is not None else None
-        first = respond(case, axis, loads, model)
-        peak = float(np.abs(first.M).max())
+        model = (frame_model(case, axis, case.section.at(axis), estimate_condition=False)
+                 if analysis.frame is not None else None)
+        peak = float(np.abs(respond(case, axis, loads.select(reference), model).M).max())
         if best is None or peak > best[0]:
             best = (peak, Imperfection(b.group, amplitude_m, sign, b.symmetry[0], b.critical_factor, displacement),
-                    first, model)
-    return best[1:]
+                    axis, model)
+    _, imperfection, axis, model = best
+    return imperfection, respond(case, axis, loads, model), model
