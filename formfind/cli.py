@@ -325,7 +325,9 @@ def _print_checks(checks) -> None:
         where = "" if r.x_m is None else length(r.x_m)
         print(f"{r.name[:34]:<34} {for_reading(r.value):>11} {limit:>10} {r.unit:<4} {util:>6}  {r.combination[:24]:<24} "
               f"{where:>7}  {r.verdict.upper()}{'  ' + r.note if r.note else ''}")
-    print("verdict: " + ("all checks pass" if checks.passed else "SOME CHECKS FAIL"))
+    judged = (" (an unreinforced ring: judged by its lines of thrust and its collapse mechanism; the elastic "
+              "stress and eccentricity rows are information, in checks.csv)") if checks.thrust_lines else ""
+    print("verdict: " + ("all checks pass" if checks.passed else "SOME CHECKS FAIL") + judged)
 
 
 def _print_shape(shape) -> None:

@@ -28,7 +28,7 @@ Moving axle trains are enveloped over their positions by the analysis itself (on
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -296,6 +296,7 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     collapse: tuple = ()
     if settings.unreinforced:
         thrust_rows, collapse, extra_rows = _unreinforced(case, analysis)
+        rows = [_as_information(r) for r in rows]
         rows += extra_rows
     first = np.abs(response.M).max(axis=1) if response.count else np.zeros(0)
     ratio = np.divide(np.abs(M).max(axis=1) if response.count else np.zeros(0), first, out=np.ones_like(first),
@@ -412,6 +413,20 @@ def _eccentricity_row(limit_kind, response, M, N, sec, pattern, terms, x, note) 
                     float(x[i]), PASS if worst <= 1.0 else FAIL, note)
 
 
+ELASTIC_ROWS = ("compressive stress", "tensile stress", "eccentricity within the kern", "eccentricity within the boundary")
+UNREINFORCED_NOTE = ("information only: an unreinforced ring cracks instead of taking tension, so it is judged by its "
+                     "lines of thrust (Heyman's safe theorem) and its collapse mechanism; crushing is not yet judged "
+                     "by a thrust-line rule: compare this elastic stress with the strength yourself")
+
+
+def _as_information(row: CheckRow) -> CheckRow:
+    """An elastic row of an unreinforced ring, kept for information (its verdict is not the ring's)."""
+    if row.name not in ELASTIC_ROWS:
+        return row
+    note = "; ".join(t for t in (UNREINFORCED_NOTE, row.note) if t)
+    return replace(row, verdict=INFO, utilisation=None, note=note)
+
+
 def _unreinforced(case: Case, analysis: CaseAnalysis):
     """Thrust-line rows of a no-tension rib: admissibility per combination, collapse of collapse_case."""
     from formfind.design.thrust import admissibility, collapse_factors
@@ -437,7 +452,7 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
         governing = min(rated, key=lambda r: r.geometric_factor)
         value = governing.geometric_factor
         need = settings.min_geometric_factor
-        util = need / value if value > 0 else np.inf
+        util = need / value if value > 0 else None  # no line fits at all: judged by the value, no ratio
         rows.append(CheckRow("thrust line: geometric factor", value, need, "-", util, group,
                              (failing[0] if failing else governing).state, None, None,
                              FAIL if failing else PASS,
