@@ -90,6 +90,14 @@ class Objective(StrEnum):
     NEAREST = "nearest"  # the least deviation from a reference curve with |M| within a limit (m)
 
 
+class LimitState(StrEnum):
+    """What a combination is checked for."""
+
+    ULTIMATE = "ultimate"  # strength and stability
+    SERVICEABILITY = "serviceability"  # deflections (not strength)
+    ACCIDENTAL = "accidental"  # strength and stability under an accidental action
+
+
 class Deviation(StrEnum):
     """How the distance between an axis and a reference curve is measured (vertically, at the stations)."""
 

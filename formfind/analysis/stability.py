@@ -98,16 +98,18 @@ def imperfect_axis(axis: Axis, displacement: np.ndarray) -> Axis:
     return Axis(axis.x + displacement[:, 0], axis.y + displacement[:, 1], axis.theta + displacement[:, 2])
 
 
-def design_moments(case: Case, analysis: CaseAnalysis, response: Response) -> DesignMoments:
+def design_moments(case: Case, analysis: CaseAnalysis, response: Response,
+                   loads: StationLoads | None = None) -> DesignMoments:
     """The design moments of ``response``'s states (the analysis's combinations, or its cases if there
-    are none), following the module docstring."""
+    are none, or a selection of either with its ``loads``), following the module docstring."""
     settings = case.check
     alpha = {b.group: b.critical_factor for b in analysis.buckling}
     M, N, N_left = response.M.copy(), response.N.copy(), response.N_left.copy()
     method = ["first-order"] * response.count
     amplified = np.zeros(response.count, dtype=bool)
     imperfections: dict[str, Imperfection] = {}
-    loads = analysis.loads.combinations if analysis.combinations.count else analysis.loads.cases
+    if loads is None:
+        loads = analysis.loads.combinations if analysis.combinations.count else analysis.loads.cases
     ratio = settings.imperfection_over_span
     buckled = {b.group: b for b in analysis.buckling}
     imperfect_models: dict[str, object] = {}

@@ -33,11 +33,12 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from formfind.analysis import statics
+from formfind.analysis.deflection import Deflections, deflections
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.frame import influence_lines, unit_loads
 from formfind.analysis.response import EFFECTS, Response
 from formfind.analysis.stability import design_moments
-from formfind.enums import ActionKind, EccentricityLimit, SupportKind, Verdict
+from formfind.enums import ActionKind, EccentricityLimit, LimitState, SupportKind, Verdict
 from formfind.model.case import Case
 from formfind.model.loads import StationLoads
 
@@ -143,6 +144,9 @@ class CheckResult:
         thrust_lines: admissibility of every state (unreinforced ribs only).
         collapse: collapse load factors of ``collapse_case`` per position (unreinforced ribs only).
         imperfections: the initial imperfection of each combination (`formfind.analysis.stability`).
+        deflections: station displacements of every combination state (`formfind.analysis.deflection`).
+        strength_states: the states the strength arrays hold (ultimate and accidental combinations; the
+            serviceability ones are judged by their deflection).
     """
 
     rows: tuple[CheckRow, ...]
@@ -155,6 +159,8 @@ class CheckResult:
     thrust_lines: tuple[ThrustLineRow, ...] = ()
     collapse: tuple = ()
     imperfections: tuple = ()
+    deflections: Deflections | None = None
+    strength_states: tuple[str, ...] = ()
 
     @property
     def passed(self) -> bool:
@@ -218,10 +224,14 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     arguments.case(case, "check")
     arguments.instance(analysis, CaseAnalysis, "check", "analysis")
     settings = case.check
-    response = analysis.combinations if analysis.combinations.count else analysis.cases
+    everything = analysis.combinations if analysis.combinations.count else analysis.cases
+    all_loads = analysis.loads.combinations if analysis.combinations.count else analysis.loads.cases
+    # strength and stability on the ultimate and accidental combinations; deflection on the serviceability ones
+    strength = [k for k, g in enumerate(everything.groups) if case.limit_state(g) is not LimitState.SERVICEABILITY]
+    response = everything.select(strength)
     sec = analysis.section
     x = analysis.axis.x
-    design = design_moments(case, analysis, response)
+    design = design_moments(case, analysis, response, all_loads.select(strength))
     M, N_right, N_left, method, alpha = design.M, design.N, design.N_left, design.method, design.alpha
     N = np.minimum(N_right, N_left) if response.count else N_right  # the more compressive side
     A, W = sec.area_m2[None, :], sec.section_modulus_m3[None, :]
@@ -268,6 +278,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     if settings.eccentricity_limit is not EccentricityLimit.NONE:
         rows.append(_eccentricity_row(settings.eccentricity_limit, response, M, N, sec, pattern, terms, x, note))
     for group, a in alpha.items():
+        if case.limit_state(group) is LimitState.SERVICEABILITY:
+            continue
         util = settings.min_buckling_factor / a if np.isfinite(a) and a > 0 else None
         so = f"second-order by {_group_method(response, method, group)}" if a < settings.second_order_below else ""
         if group in design.imperfections:
@@ -292,6 +304,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
             text = f"with {f:g} x the patterned load ({extra:.4g} kN)"
         rows.append(CheckRow("thrust on the abutments", value, None, "kN", None, group,
                              response.names[k], None, None, INFO, text))
+    moved = deflections(analysis, combinations=analysis.combinations.count > 0)
+    rows += _deflection_rows(case, moved, analysis.axis.span_m)
     thrust_rows: tuple[ThrustLineRow, ...] = ()
     collapse: tuple = ()
     if settings.unreinforced:
@@ -302,7 +316,7 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     ratio = np.divide(np.abs(M).max(axis=1) if response.count else np.zeros(0), first, out=np.ones_like(first),
                       where=first > 0)
     return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse,
-                       tuple(design.imperfections.values()))
+                       tuple(design.imperfections.values()), moved, response.names)
 
 
 def _group_method(response: Response, method: tuple[str, ...], group: str) -> str:
@@ -417,6 +431,31 @@ ELASTIC_ROWS = ("compressive stress", "tensile stress", "eccentricity within the
 UNREINFORCED_NOTE = ("information only: an unreinforced ring cracks instead of taking tension, so it is judged by its "
                      "lines of thrust (Heyman's safe theorem) and its collapse mechanism; crushing is not yet judged "
                      "by a thrust-line rule: compare this elastic stress with the strength yourself")
+
+
+def _deflection_rows(case: Case, moved: Deflections, span_m: float) -> list[CheckRow]:
+    """The largest vertical deflection of the serviceability combinations against span / ratio; where
+    there are none, the largest of all states for information."""
+    if not moved.names:
+        return []
+    limit = span_m / case.check.deflection_limit_ratio
+    service = [k for k, g in enumerate(moved.groups) if case.limit_state(g) is LimitState.SERVICEABILITY]
+    chosen = service or list(range(len(moved.names)))
+    size = np.abs(moved.uy[chosen])
+    j, i = np.unravel_index(int(np.argmax(size)), size.shape)
+    k = chosen[j]
+    value = float(size[j, i])
+    signed = "down" if moved.uy[k, i] < 0 else "up"
+    ratio = f"span/{span_m / value:.0f}" if value > 0 else "none"
+    rule = f"limit span/{case.check.deflection_limit_ratio:g} (an example unless the case sets it)"
+    if not service:
+        return [CheckRow("vertical deflection", value * 1000, limit * 1000, "mm", None, moved.groups[k], moved.names[k],
+                         int(i), float(moved.x[i]), INFO,
+                         f"no serviceability combination (limit_state): the largest of all states, {signed}, "
+                         f"{ratio}, for information; {rule}")]
+    return [CheckRow("vertical deflection", value * 1000, limit * 1000, "mm", value / limit, moved.groups[k],
+                     moved.names[k], int(i), float(moved.x[i]), PASS if value <= limit else FAIL,
+                     f"serviceability combinations, first order: {signed}, {ratio}; {rule}")]
 
 
 def _as_information(row: CheckRow) -> CheckRow:

@@ -17,7 +17,7 @@ from formfind.analysis.engine import frame_model, respond
 from formfind.analysis.frame import FrameModel
 from formfind.analysis.response import Response
 from formfind.analysis.sensitivity import MomentModel, statics_model
-from formfind.enums import Objective, SupportKind
+from formfind.enums import LimitState, Objective, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
 from formfind.model.geometry import Axis
@@ -33,9 +33,14 @@ from formfind.model.section import Section
 
 
 def governing_groups(case: Case) -> tuple[str, ...]:
-    """Names of the combinations or cases that govern form finding."""
+    """Names of the combinations or cases that govern form finding: as the case names them, else every
+    ultimate and accidental combination (the serviceability ones check deflection, they do not shape),
+    else every load case."""
     if case.find.governing:
         return case.find.governing
+    strength = tuple(c.name for c in case.combinations if c.limit_state is not LimitState.SERVICEABILITY)
+    if strength:
+        return strength
     if case.combinations:
         return tuple(c.name for c in case.combinations)
     return tuple(c.name for c in case.cases)

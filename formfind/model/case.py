@@ -28,6 +28,7 @@ from formfind.enums import (
     DxfVersion,
     EccentricityLimit,
     FillReference,
+    LimitState,
     LoadDirection,
     Objective,
     Projection,
@@ -149,6 +150,7 @@ class CheckSettings:
     min_buckling_factor: float = schema.default(schema.CHECK, "min_buckling_factor")
     second_order_below: float = schema.default(schema.CHECK, "second_order_below")
     imperfection_over_span: float = schema.default(schema.CHECK, "imperfection_over_span")
+    deflection_limit_ratio: float = schema.default(schema.CHECK, "deflection_limit_ratio")
     second_order: SecondOrderMethod = schema.default(schema.CHECK, "second_order")
     patterned_load_kN_m: float | None = None
     patterned_factors: tuple[tuple[str, float], ...] = ()
@@ -262,6 +264,13 @@ class Case:
         if s.tie_area_m2 is None or s.tie_modulus_kN_m2 is None:
             return None
         return s.tie_area_m2 * s.tie_modulus_kN_m2
+
+    def limit_state(self, group: str) -> LimitState:
+        """The limit state a combination is checked for (a load case on its own: ultimate)."""
+        for c in self.combinations:
+            if c.name == group:
+                return c.limit_state
+        return LimitState.ULTIMATE
 
     def curve(self) -> Curve:
         """The smooth given axis."""
@@ -439,6 +448,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             min_buckling_factor=check_raw["min_buckling_factor"],
             second_order_below=check_raw["second_order_below"],
             imperfection_over_span=check_raw["imperfection_over_span"],
+            deflection_limit_ratio=check_raw["deflection_limit_ratio"],
             second_order=check_raw["second_order"],
             patterned_load_kN_m=check_raw["patterned_load_kN_m"],
             patterned_factors=_patterned_factors(check_raw, cases, combinations, file),
@@ -667,7 +677,12 @@ def _combinations(raw: Any, cases: tuple[LoadCase, ...], file: str) -> tuple[Com
                 raise CaseError(file, f"{path}.factors.{case_name}", f"unknown load case{schema.suggest(case_name, names)}; expected one of {', '.join(names)}")
         if sum(c in trains for c, _ in v["factors"]) > 1:
             raise CaseError(file, f"{path}.factors", "at most one moving-load (axle_train) case per combination")
-        out.append(Combination(v["name"], v["factors"], v["description"]))
+        state = v["limit_state"]
+        if state is None:
+            accidental = {c.name for c in cases if c.action is ActionKind.ACCIDENTAL}
+            state = (LimitState.ACCIDENTAL if any(n in accidental and f != 0 for n, f in v["factors"])
+                     else LimitState.ULTIMATE)
+        out.append(Combination(v["name"], v["factors"], v["description"], state))
     return tuple(out)
 
 

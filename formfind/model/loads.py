@@ -20,7 +20,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from formfind.enums import ActionKind, FillReference, LoadDirection, Projection, TrainDirection
+from formfind.enums import ActionKind, FillReference, LimitState, LoadDirection, Projection, TrainDirection
 from formfind.model.geometry import Axis
 from formfind.model.section import SectionAlong
 
@@ -175,6 +175,7 @@ class Combination:
     name: str
     factors: tuple[tuple[str, float], ...]
     description: str = ""
+    limit_state: LimitState = LimitState.ULTIMATE
 
 
 # --------------------------------------------------------------------------------- station loads

@@ -21,6 +21,7 @@ from formfind.enums import (
     DxfVersion,
     EccentricityLimit,
     FillReference,
+    LimitState,
     LoadDirection,
     Objective,
     Projection,
@@ -270,8 +271,8 @@ FIND = Table(
             "kNm", default=None, positive=True, maximum=MAX_MAGNITUDE),
         Key("deviation", Deviation, "For nearest: largest (the largest vertical distance to the reference) or "
             "rms (its root mean square along the arch).", default=Deviation.LARGEST.value),
-        Key("governing", "names", "Combinations or cases whose states govern; default: every combination "
-            "(every case if there are none).", default=None),
+        Key("governing", "names", "Combinations or cases whose states govern; default: every ultimate and "
+            "accidental combination (every case if there are no combinations).", default=None),
         Key("rise_min_m", "number", "Least rise above the springing chord at the crown; default: the "
             "geometry's rise (a fixed rise).", "m", default=None, positive=True),
         Key("rise_max_m", "number", "Greatest rise above the springing chord anywhere; default: the "
@@ -349,6 +350,9 @@ CHECK = Table(
             "given the shape of each combination's lowest in-plane buckling mode (sign adverse) before the "
             "checks' moments are found; 0: a perfect arch. The default 1/500 is an example, not a code value: "
             "take yours from the governing code.", default=0.002, minimum=0.0, maximum=0.05),
+        Key("deflection_limit_ratio", "number", "The largest vertical deflection allowed under the serviceability "
+            "combinations is span / this number (500: span/500, an example, not a code value).", default=500.0,
+            positive=True, maximum=1e6),
         Key("second_order", SecondOrderMethod, "How second-order moments are found where a buckling factor "
             "is below second_order_below: a P-Delta solve on the deflected arch, or the amplification "
             "1 / (1 - 1/alpha).", default=SecondOrderMethod.P_DELTA.value),
@@ -403,6 +407,9 @@ COMBINATIONS = Table(
     (
         Key("name", "name", "Unique name of the combination (distinct from case names)."),
         Key("factors", "factors", "Inline table: case name = factor, e.g. { dead = 1.35, live = 1.5 }."),
+        Key("limit_state", LimitState, "What it is checked for: ultimate and accidental combinations for strength "
+            "and stability, serviceability ones for deflection; default: accidental where it holds an accidental "
+            "case, else ultimate.", default=None),
         Key("description", "string", "Free text.", default=""),
     ),
     array=True,

@@ -142,6 +142,15 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
                                "amplitude of a linear mode is arbitrary.",
                                plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
                                                         critical.symmetry[0], critical.group)))
+    if checks is not None and checks.deflections is not None and checks.deflections.names:
+        row = next((r for r in checks.rows if r.name == "vertical deflection"), None)
+        if row is not None:
+            d = checks.deflections
+            k = d.names.index(row.state)
+            out.append(Diagram("fig-deflection", f"Deflected shape under {row.state}, the state of the largest "
+                               f"vertical deflection ({numbers.for_reading(row.value)} mm at x = "
+                               f"{numbers.length(row.x_m)} m); displacements magnified by the factor shown.",
+                               plots.plot_deflected(axis, d.ux[k], d.uy[k], row.state, row.x_m)))
     if checks is not None and checks.collapse:
         worst = min(checks.collapse, key=lambda c: c.factor)
         if worst.moment_kNm is not None:
@@ -186,6 +195,8 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
         out["checks.json"] = tables.checks_json(checks, case.name).encode()
         if checks.pattern is not None:
             out["patterned.csv"] = tables.patterned_csv(checks).encode()
+        if checks.deflections is not None and checks.deflections.names:
+            out["deflections.csv"] = tables.deflections_csv(checks.deflections).encode()
         if checks.thrust_lines:
             out["thrust-lines.csv"] = tables.thrust_lines_csv(checks).encode()
     if shape is not None:

@@ -308,6 +308,28 @@ def plot_buckling_mode(axis: Axis, mode: np.ndarray, factor: float, symmetry: st
     return ax
 
 
+def plot_deflected(axis: Axis, ux: np.ndarray, uy: np.ndarray, state: str, at_x_m: float, ax=None):
+    """The axis and its deflected shape under one state, displacements magnified by a round factor so
+    the largest is about a twentieth of the span; the factor is in the legend and the title."""
+    ax = ax or new_axes()
+    peak = float(np.hypot(ux, uy).max())
+    raw = 0.05 * axis.span_m / peak if peak > 0 else 1.0
+    scale = float(10 ** np.floor(np.log10(raw)))
+    scale *= max(m for m in (1, 2, 5) if m * scale <= raw) if raw >= scale else 1
+    moved = np.stack([axis.x + scale * ux, axis.y + scale * uy], axis=-1)
+    ax.plot(axis.x, axis.y, color="#999999", lw=1.0, label="axis")
+    ax.plot(moved[:, 0], moved[:, 1], lw=1.4, color=PALETTE[0], label=f"deflected, displacements x {scale:g}")
+    i = int(np.argmin(np.abs(axis.x - at_x_m)))
+    ax.annotate(f"{1000 * abs(uy[i]):.1f} mm {'down' if uy[i] < 0 else 'up'}\nat x = {at_x_m:.2f} m",
+                (moved[i, 0], moved[i, 1]), xytext=(0, -28 if uy[i] < 0 else 18), textcoords="offset points",
+                ha="center", fontsize=8, bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "#999999"},
+                arrowprops={"arrowstyle": "-", "color": "#555555", "lw": 0.8})
+    _frame_arch(ax, np.vstack([moved, np.stack([axis.x, axis.y], axis=-1)]), axis.span_m)
+    ax.set_title(f"Deflected shape under {state} (displacements x {scale:g})", fontsize=10)
+    _legend_below(ax, ncol=2)
+    return ax
+
+
 def plot_collapse(axis: Axis, depth_m: np.ndarray, line: np.ndarray, hinges, factor: float, state: str, ax=None):
     """A no-tension ring at collapse: the ring, the line of thrust at the collapse factor and the
     hinges of the mechanism on the intrados or extrados (``hinges``: (x m, face) pairs)."""

@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 
 from formfind import __version__
+from formfind.analysis.deflection import Deflections
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
 from formfind.design.check import CheckResult
@@ -365,6 +366,25 @@ def arcs_csv(arcs: tuple[Arc, ...]) -> str:
                         1000.0 * a.max_deviation_m] for a in arcs]).reshape(len(arcs), 10)
     return _rows_csv(header, [list(range(1, len(arcs) + 1)), [a.start_station for a in arcs],
                               [a.end_station for a in arcs]], values, ARC_KINDS)
+
+
+DEFLECTION_KINDS = ["length", "significant", "significant", "significant", "significant"]
+
+
+def deflections_csv(moved: Deflections) -> str:
+    """Envelopes of the station displacements per combination (or case): vertical (up positive) and
+    horizontal (right positive), largest and least over its states, mm."""
+    n = moved.x.size
+    text_cols: list[list[Any]] = [[], []]
+    blocks = []
+    for group in dict.fromkeys(moved.groups):
+        uy_max, uy_min, ux_max, ux_min = moved.envelope(group)
+        text_cols[0] += [group] * n
+        text_cols[1] += list(range(n))
+        blocks.append(np.column_stack([moved.x, 1000 * uy_max, 1000 * uy_min, 1000 * ux_max, 1000 * ux_min]))
+    header = ["group", "station", "x_m", "uy_max_mm", "uy_min_mm", "ux_max_mm", "ux_min_mm"]
+    values = np.vstack(blocks) if blocks else np.zeros((0, 5))
+    return _rows_csv(header, text_cols, values, DEFLECTION_KINDS)
 
 
 def setting_out_rows(axis: Axis, section: SectionAlong, interval_m: float) -> np.ndarray:
