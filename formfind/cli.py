@@ -388,4 +388,9 @@ def _print_summary(result) -> None:
     if result.buckling:
         print("buckling: factor on each combination at which the arch buckles in its plane "
               "(linear elastic; loads keep their direction unless the case says otherwise)")
+    if result.modes is not None and result.modes.frequency_hz.size:
+        m = result.modes
+        print("natural frequencies in the plane (mass of the permanent cases): " + ", ".join(
+            f"{for_reading(f, 3)} Hz ({s}, {d})" for f, s, d in zip(m.frequency_hz, m.symmetry, m.direction,
+                                                                     strict=True)))
 

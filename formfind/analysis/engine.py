@@ -15,6 +15,7 @@ import numpy as np
 
 from formfind.analysis import statics
 from formfind.analysis.buckling import BucklingResult, buckle
+from formfind.analysis.dynamics import Modes
 from formfind.analysis.frame import FrameModel, build_frame, solve
 from formfind.analysis.response import Response
 from formfind.enums import SupportKind
@@ -45,6 +46,7 @@ class CaseAnalysis:
     combinations: Response
     buckling: tuple[BucklingResult, ...]
     frame: FrameModel | None
+    modes: Modes | None = None
 
 
 def frame_model(case: Case, axis: Axis, section: SectionAlong, estimate_condition: bool = True) -> FrameModel:
@@ -154,7 +156,7 @@ def analyse(
             if b.critical_factor < 1.0:
                 log.warning("%s buckles at %.3g times its loads: the arch cannot carry this combination (its "
                             "results do not hold)", b.group, b.critical_factor)
-    return CaseAnalysis(
+    analysis = CaseAnalysis(
         case=case,
         axis=axis,
         section=section,
@@ -164,3 +166,11 @@ def analyse(
         buckling=buckling,
         frame=model,
     )
+    if case.analysis.natural_modes > 0 and want_buckling:
+        from formfind.analysis.dynamics import case_modes
+
+        try:
+            analysis = replace(analysis, modes=case_modes(case, analysis, case.analysis.natural_modes))
+        except AnalysisError as exc:  # no mass: say so, keep the analysis
+            log.warning("%s", exc)
+    return analysis

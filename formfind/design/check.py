@@ -306,6 +306,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
                              response.names[k], None, None, INFO, text))
     moved = deflections(analysis, combinations=analysis.combinations.count > 0)
     rows += _deflection_rows(case, moved, analysis.axis.span_m)
+    if analysis.modes is not None:
+        rows += _frequency_rows(analysis.modes, settings.pedestrian_bridge)
     thrust_rows: tuple[ThrustLineRow, ...] = ()
     collapse: tuple = ()
     if settings.unreinforced:
@@ -456,6 +458,33 @@ def _deflection_rows(case: Case, moved: Deflections, span_m: float) -> list[Chec
     return [CheckRow("vertical deflection", value * 1000, limit * 1000, "mm", value / limit, moved.groups[k],
                      moved.names[k], int(i), float(moved.x[i]), PASS if value <= limit else FAIL,
                      f"serviceability combinations, first order: {signed}, {ratio}; {rule}")]
+
+
+# where walking people excite a footbridge, vertically and longitudinally (Setra, "Footbridges: assessment
+# of vibrational behaviour due to pedestrian footfall", technical guide, 2006; values from memory)
+PEDESTRIAN_RANGES = ((1.7, 2.1, "the range of maximum risk"), (1.0, 1.7, "a range of medium risk"),
+                     (2.1, 2.6, "a range of medium risk"), (2.6, 5.0, "the range of low risk (second harmonic)"))
+
+
+def _frequency_rows(modes, pedestrian: bool) -> list[CheckRow]:
+    """The lowest natural frequency of each direction in the plane, for information; on a footbridge,
+    whether it lies where walking excites a deck (the acceleration check is the designer's)."""
+    rows = []
+    for direction in ("vertical", "horizontal"):
+        found = [j for j, d in enumerate(modes.direction) if d == direction]
+        if not found:
+            continue
+        j = found[0]
+        f = float(modes.frequency_hz[j])
+        note = f"mode {j + 1} of {len(modes.direction)}, {modes.symmetry[j]}, modal mass {modes.modal_mass_t[j]:.4g} t"
+        if pedestrian:
+            hit = next((text for lo, hi, text in PEDESTRIAN_RANGES if lo <= f < hi), None)
+            note += (f"; inside {hit} for pedestrian excitation (Setra 2006 guide, from memory): check the "
+                     "accelerations" if hit else "; outside the ranges of pedestrian excitation (Setra 2006 guide, "
+                     "from memory)")
+        rows.append(CheckRow(f"natural frequency, lowest {direction} mode", f, None, "Hz", None, "permanent",
+                             f"mode {j + 1}", None, None, INFO, note))
+    return rows
 
 
 def _as_information(row: CheckRow) -> CheckRow:

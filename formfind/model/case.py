@@ -137,6 +137,7 @@ class AnalysisSettings:
     shear_deformation: bool = schema.default(schema.ANALYSIS, "shear_deformation")
     buckling: bool = schema.default(schema.ANALYSIS, "buckling")
     buckling_modes: int = schema.default(schema.ANALYSIS, "buckling_modes")
+    natural_modes: int = schema.default(schema.ANALYSIS, "natural_modes")
     pressure_follows_axis: bool = schema.default(schema.ANALYSIS, "pressure_follows_axis")
 
 
@@ -151,6 +152,7 @@ class CheckSettings:
     second_order_below: float = schema.default(schema.CHECK, "second_order_below")
     imperfection_over_span: float = schema.default(schema.CHECK, "imperfection_over_span")
     deflection_limit_ratio: float = schema.default(schema.CHECK, "deflection_limit_ratio")
+    pedestrian_bridge: bool = schema.default(schema.CHECK, "pedestrian_bridge")
     second_order: SecondOrderMethod = schema.default(schema.CHECK, "second_order")
     patterned_load_kN_m: float | None = None
     patterned_factors: tuple[tuple[str, float], ...] = ()
@@ -449,6 +451,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             second_order_below=check_raw["second_order_below"],
             imperfection_over_span=check_raw["imperfection_over_span"],
             deflection_limit_ratio=check_raw["deflection_limit_ratio"],
+            pedestrian_bridge=check_raw["pedestrian_bridge"],
             second_order=check_raw["second_order"],
             patterned_load_kN_m=check_raw["patterned_load_kN_m"],
             patterned_factors=_patterned_factors(check_raw, cases, combinations, file),

@@ -237,6 +237,8 @@ ANALYSIS = Table(
         Key("buckling", "boolean", "Compute the in-plane buckling factor of every combination.", default=True),
         Key("buckling_modes", "integer", "Number of buckling modes to find, 1..20.", default=4, minimum=1,
             maximum=20),
+        Key("natural_modes", "integer", "Natural modes in the plane to find (frequencies, shapes, modal masses; "
+            "mass from the permanent cases and the rib), 0..20; 0: none.", default=6, minimum=0, maximum=20),
         Key("pressure_follows_axis", "boolean",
             "Treat distributed loads as pressure that stays normal to the deflected axis when buckling "
             "(false: loads keep their direction, as gravity loads do).", default=False),
@@ -353,6 +355,8 @@ CHECK = Table(
         Key("deflection_limit_ratio", "number", "The largest vertical deflection allowed under the serviceability "
             "combinations is span / this number (500: span/500, an example, not a code value).", default=500.0,
             positive=True, maximum=1e6),
+        Key("pedestrian_bridge", "boolean", "Say where a natural frequency lies in the ranges in which walking "
+            "people excite a footbridge (vertical and longitudinal, first and second harmonic).", default=False),
         Key("second_order", SecondOrderMethod, "How second-order moments are found where a buckling factor "
             "is below second_order_below: a P-Delta solve on the deflected arch, or the amplification "
             "1 / (1 - 1/alpha).", default=SecondOrderMethod.P_DELTA.value),

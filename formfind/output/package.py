@@ -142,6 +142,15 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
                                "amplitude of a linear mode is arbitrary.",
                                plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
                                                         critical.symmetry[0], critical.group)))
+    if analysis.modes is not None:
+        m = analysis.modes
+        for j in range(min(2, m.frequency_hz.size)):
+            out.append(Diagram(f"fig-mode-{j + 1}", f"Natural mode {j + 1} in the plane: "
+                               f"{numbers.for_reading(m.frequency_hz[j], 3)} Hz, {m.symmetry[j]}, {m.direction[j]}, "
+                               f"modal mass {numbers.for_reading(m.modal_mass_t[j], 4)} t (mass from the permanent "
+                               "cases and the rib); the amplitude of a mode is arbitrary.",
+                               plots.plot_mode(axis, m.shapes[j], j + 1, float(m.frequency_hz[j]), m.symmetry[j],
+                                               m.direction[j])))
     if checks is not None and checks.deflections is not None and checks.deflections.names:
         row = next((r for r in checks.rows if r.name == "vertical deflection"), None)
         if row is not None:
@@ -212,6 +221,8 @@ def build_files(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | 
         out["reactions.csv"] = tables.reactions_csv(analysis).encode()
         out["summary.csv"] = tables.summary_csv(analysis).encode()
         out["buckling.csv"] = tables.buckling_csv(analysis).encode()
+        if analysis.modes is not None:
+            out["modes.csv"] = tables.modes_csv(analysis.modes).encode()
         if all_states:
             out["states.csv"] = tables.states_csv(analysis).encode()
         if shape is None:

@@ -308,6 +308,21 @@ def plot_buckling_mode(axis: Axis, mode: np.ndarray, factor: float, symmetry: st
     return ax
 
 
+def plot_mode(axis: Axis, shape: np.ndarray, number: int, frequency_hz: float, symmetry: str, direction: str,
+              ax=None):
+    """One natural mode shape (stations, 3) over the axis, its largest displacement drawn at a twentieth
+    of the span (a shape: the amplitude of a free vibration mode is arbitrary)."""
+    ax = ax or new_axes()
+    amp = axis.span_m / 20.0
+    moved = np.stack([axis.x + amp * shape[:, 0], axis.y + amp * shape[:, 1]], axis=-1)
+    ax.plot(axis.x, axis.y, color="#999999", lw=1.0, label="axis")
+    ax.plot(moved[:, 0], moved[:, 1], lw=1.4, color=PALETTE[0], label=f"mode {number}, {symmetry}, {direction}")
+    _frame_arch(ax, np.vstack([moved, np.stack([axis.x, axis.y], axis=-1)]), axis.span_m)
+    ax.set_title(f"Natural mode {number} in the plane: {frequency_hz:.3g} Hz (shape, scaled)", fontsize=10)
+    _legend_below(ax, ncol=2)
+    return ax
+
+
 def plot_deflected(axis: Axis, ux: np.ndarray, uy: np.ndarray, state: str, at_x_m: float, ax=None):
     """The axis and its deflected shape under one state, displacements magnified by a round factor so
     the largest is about a twentieth of the span; the factor is in the legend and the title."""

@@ -19,6 +19,7 @@ import numpy as np
 
 from formfind import __version__
 from formfind.analysis.deflection import Deflections
+from formfind.analysis.dynamics import Modes
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.response import EFFECTS, Response, envelopes, summarise
 from formfind.design.check import CheckResult
@@ -124,6 +125,13 @@ def analysis_json(analysis: CaseAnalysis) -> str:
             },
             "cases": _response_json(analysis.cases),
             "combinations": _response_json(analysis.combinations),
+            "natural_modes": None if analysis.modes is None else [
+                {"mode": j + 1, "frequency_hz": float(f), "period_s": float(1 / f) if f > 0 else None,
+                 "symmetry": s, "direction": d, "modal_mass_t": float(m), "shape_ux_uy_rotation": shape}
+                for j, (f, s, d, m, shape) in enumerate(zip(analysis.modes.frequency_hz, analysis.modes.symmetry,
+                                                            analysis.modes.direction, analysis.modes.modal_mass_t,
+                                                            analysis.modes.shapes, strict=True))
+            ],
             "buckling": [
                 {
                     "group": b.group,
@@ -385,6 +393,15 @@ def deflections_csv(moved: Deflections) -> str:
     header = ["group", "station", "x_m", "uy_max_mm", "uy_min_mm", "ux_max_mm", "ux_min_mm"]
     values = np.vstack(blocks) if blocks else np.zeros((0, 5))
     return _rows_csv(header, text_cols, values, DEFLECTION_KINDS)
+
+
+def modes_csv(modes: Modes) -> str:
+    """The natural modes in the plane: frequency (Hz), period (s), symmetry, dominant direction and
+    modal mass (t, for the shape scaled to a largest translation of 1)."""
+    rows = [[j + 1, float(f), float(1 / f) if f > 0 else float("nan"), s, d, float(m)]
+            for j, (f, s, d, m) in enumerate(zip(modes.frequency_hz, modes.symmetry, modes.direction,
+                                                 modes.modal_mass_t, strict=True))]
+    return _csv(["mode", "frequency_Hz", "period_s", "symmetry", "direction", "modal_mass_t"], rows)
 
 
 def setting_out_rows(axis: Axis, section: SectionAlong, interval_m: float) -> np.ndarray:

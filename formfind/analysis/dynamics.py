@@ -1,0 +1,171 @@
+"""Natural frequencies and modes of the arch in its plane.
+
+Mass: the permanent load cases' downward loads divided by g (distributed loads as distributed mass,
+point loads lumped at their element's ends by the lever rule); where no permanent case holds the rib's
+own weight, the rib's weight (unit weight x area) is added. Each element gets the consistent mass
+matrix of a beam element (axial: m l / 6 [2 1; 1 2]; bending: the cubic Hermite matrix m l / 420 [...],
+e.g. Przemieniecki, *Theory of Matrix Structural Analysis*, or any finite element text; from memory)
+on the same frame model and the same degrees of freedom as the stiffness, a crown hinge included.
+The generalized eigenproblem K phi = omega^2 M phi on the free degrees of freedom gives the modes.
+
+Units: mass in tonnes (kN s^2 / m), stiffness kN / m, so omega in rad/s; frequencies in Hz. Mode
+shapes are scaled to a largest translation of 1; the modal mass phi' M phi (t) is for that scaling.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+
+from formfind.analysis.buckling import _symmetry
+from formfind.analysis.frame import FrameModel, rotation_matrices
+from formfind.enums import ActionKind
+from formfind.errors import AnalysisError
+from formfind.model.loads import SelfWeight, StationLoads
+
+G = 9.80665  # m/s2, standard gravity (the kilogram's definition, CGPM 1901)
+
+
+@dataclass(frozen=True, eq=False)
+class Modes:
+    """Natural modes in the plane of the arch.
+
+    Attributes:
+        frequency_hz: (modes,) ascending.
+        shapes: (modes, stations, 3) ux, uy (scaled to a largest translation of 1) and rotation.
+        symmetry: per mode, "symmetric", "antisymmetric" or "unsymmetric" about midspan.
+        direction: per mode, "vertical" or "horizontal": the translation holding more kinetic energy.
+        modal_mass_t: (modes,) phi' M phi for the scaled shapes, t.
+        total_mass_t: the mass of the model, t.
+    """
+
+    frequency_hz: np.ndarray
+    shapes: np.ndarray
+    symmetry: tuple[str, ...]
+    direction: tuple[str, ...]
+    modal_mass_t: np.ndarray
+    total_mass_t: float
+
+
+def _local_mass(length: np.ndarray, mass_per_m: np.ndarray) -> np.ndarray:
+    """Consistent local mass matrices (elements, 6, 6), dofs (u1, v1, r1, u2, v2, r2), t and t m2."""
+    L, m = length, mass_per_m
+    out = np.zeros((L.size, 6, 6))
+    a = m * L / 6.0
+    out[:, 0, 0] = out[:, 3, 3] = 2 * a
+    out[:, 0, 3] = out[:, 3, 0] = a
+    b = m * L / 420.0
+    block = np.array([[156, 22, 54, -13], [22, 4, 13, -3], [54, 13, 156, -22], [-13, -3, -22, 4]], dtype=float)
+    powers = np.array([[0, 1, 0, 1], [1, 2, 1, 2], [0, 1, 0, 1], [1, 2, 1, 2]])  # of L in each entry
+    idx = [1, 2, 4, 5]
+    for r in range(4):
+        for c in range(4):
+            out[:, idx[r], idx[c]] = b * block[r, c] * L ** powers[r, c]
+    return out
+
+
+def mass_matrix(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndarray) -> sp.csc_matrix:
+    """The global consistent mass matrix: ``mass_per_m`` (elements,) t/m of chord, ``point_mass``
+    (stations,) t lumped on the translations."""
+    local = _local_mass(model.length, mass_per_m)
+    t = rotation_matrices(model.cos, model.sin)
+    glob = np.einsum("eji,ejk,ekl->eil", t, local, t)
+    dofs = model.element_dofs
+    rows = np.repeat(dofs, 6, axis=1).ravel()
+    cols = np.tile(dofs, (1, 6)).ravel()
+    n = model.axis.count
+    lumped_rows = np.concatenate([3 * np.arange(n), 3 * np.arange(n) + 1])
+    lumped = np.concatenate([point_mass, point_mass])
+    size = model.dof_count
+    return sp.csc_matrix((np.concatenate([glob.ravel(), lumped]), (np.concatenate([rows, lumped_rows]),
+                                                                 np.concatenate([cols, lumped_rows]))),
+                         shape=(size, size))
+
+
+def permanent_mass(model: FrameModel, loads: StationLoads, rib_weight_kN_m: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+    """Mass per metre of chord (elements,) and lumped at the stations (stations,), t, from the summed
+    downward loads of ``loads`` (the permanent cases) and, where given, the rib's weight (kN/m of chord,
+    per element)."""
+    n = model.axis.count
+    fy = loads.dist[:, :, :, 1].sum(axis=0)  # (elements, 2 ends), kN per unit element parameter
+    mass = np.maximum(-0.5 * (fy[:, 0] + fy[:, 1]), 0.0) / model.length / G
+    if rib_weight_kN_m is not None:
+        mass = mass + rib_weight_kN_m / G
+    lumped = np.zeros(n)
+    x = model.axis.x
+    for px, force in zip(loads.point_x, loads.point_force, strict=True):
+        down = max(-float(force[1]), 0.0) / G
+        e = int(np.clip(np.searchsorted(x, px, side="right") - 1, 0, n - 2))
+        t = (px - x[e]) / (x[e + 1] - x[e])
+        lumped[e] += (1 - t) * down
+        lumped[e + 1] += t * down
+    return mass, lumped
+
+
+def natural_modes(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndarray, count: int) -> Modes:
+    """The ``count`` lowest natural modes (fewer if the model has fewer free degrees of freedom).
+
+    Raises:
+        AnalysisError: if the model has no mass or the eigen-solver fails.
+    """
+    from scipy.sparse.linalg import ArpackNoConvergence, eigsh
+
+    M = mass_matrix(model, mass_per_m, point_mass)
+    free = model.free
+    m_ff = M[free][:, free].tocsc()
+    k_ff = model.k_ff
+    total = float(np.sum(mass_per_m * model.length) + point_mass.sum())
+    if not total > 0:
+        raise AnalysisError("natural frequencies need mass: the permanent cases carry no downward load and the "
+                            "rib has no unit weight")
+    count = int(min(count, free.size - 2))
+    if count < 1:
+        raise AnalysisError("natural frequencies: the model has too few free degrees of freedom")
+    try:
+        # a fixed start vector: ARPACK's default is random, and the outputs must be the same bytes every run
+        start = np.linspace(1.0, 2.0, free.size)
+        values, vectors = eigsh(k_ff, k=count, M=m_ff, sigma=0.0, which="LM", v0=start)
+    except (ArpackNoConvergence, RuntimeError) as exc:
+        raise AnalysisError(f"natural frequencies: the eigen-solver failed ({exc})") from None
+    order = np.argsort(values)
+    values, vectors = values[order], vectors[:, order]
+    n = model.axis.count
+    shapes, symmetry, direction, modal = [], [], [], []
+    for j in range(values.size):
+        full = np.zeros(model.dof_count)
+        full[free] = vectors[:, j]
+        shape = np.stack([full[0:3 * n:3], full[1:3 * n:3], full[2:3 * n:3]], axis=-1)
+        peak = float(np.abs(shape[:, :2]).max()) or 1.0
+        k = int(np.argmax(np.abs(shape[:, :2]).max(axis=1)))
+        component = int(np.argmax(np.abs(shape[k, :2])))
+        sign = 1.0 if shape[k, component] >= 0 else -1.0
+        shape = sign * shape / peak
+        full = sign * full / peak
+        shapes.append(shape)
+        symmetry.append(_symmetry(model, shape))
+        kinetic_x = float(full[0:3 * n:3] @ (M[0:3 * n:3][:, 0:3 * n:3] @ full[0:3 * n:3]))
+        kinetic_y = float(full[1:3 * n:3] @ (M[1:3 * n:3][:, 1:3 * n:3] @ full[1:3 * n:3]))
+        direction.append("vertical" if kinetic_y >= kinetic_x else "horizontal")
+        modal.append(float(full @ (M @ full)))
+    frequency = np.sqrt(np.maximum(values, 0.0)) / (2 * np.pi)
+    return Modes(frequency, np.array(shapes), tuple(symmetry), tuple(direction), np.array(modal), total)
+
+
+def case_modes(case, analysis, count: int) -> Modes:
+    """Natural modes of an analysed case: mass from its permanent cases (and the rib where no permanent
+    case holds its weight), on the analysis's frame model (built if the engine was statics)."""
+    from formfind.analysis.engine import frame_model
+
+    model = analysis.frame if analysis.frame is not None else frame_model(case, analysis.axis, analysis.section)
+    permanent = [c.name for c in case.cases if c.action is ActionKind.PERMANENT]
+    loads = analysis.loads.cases
+    states = [k for k, g in enumerate(loads.groups) if g in permanent]
+    own_weight = any(isinstance(ld, SelfWeight) for c in case.cases if c.name in permanent for ld in c.loads)
+    rib = None
+    if not own_weight:
+        area = 0.5 * (analysis.section.area_m2[:-1] + analysis.section.area_m2[1:])
+        rib = case.section.unit_weight_kN_m3 * area
+    mass, lumped = permanent_mass(model, loads.select(states), rib)
+    return natural_modes(model, mass, lumped, count)

@@ -1,0 +1,107 @@
+"""Natural frequencies in the plane.
+
+Sources:
+- A simply supported beam (Clough & Penzien, *Dynamics of Structures*; Timoshenko, *Vibration Problems in
+  Engineering*; from memory): f_n = n^2 pi / (2 L^2) sqrt(EI / m), modal mass m L / 2 for a sine shape of
+  unit amplitude. A two-hinged arch whose rise is tiny against the rib's radius of gyration bends as
+  that beam (its axial restraint does not change linear frequencies).
+- An independent generalized eigensolution: the stiffness and consistent mass of plane beam elements
+  (Przemieniecki, *Theory of Matrix Structural Analysis*, from memory) assembled densely here, with
+  scipy.linalg.eigh, for a shallow and a steep arch.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import scipy.linalg
+
+from formfind.analysis.dynamics import G, natural_modes
+from formfind.analysis.engine import analyse
+from formfind.analysis.frame import build_frame
+from formfind.design.check import check
+from formfind.enums import SupportKind
+from formfind.model.case import load_case
+from formfind.model.geometry import Axis, Chord, Parabola, place_stations
+from formfind.model.section import Section
+from tests.conftest import ROOT
+
+E, I, A, MASS = 2.1e8, 5e-5, 0.01, 0.5  # kN/m2, m4, m2, t/m
+
+
+def _model(span, rise, count, kind=SupportKind.TWO_HINGED):
+    curve = Parabola(Chord(span), rise)
+    axis = Axis.from_curve(curve, place_stations(curve, count))
+    return build_frame(axis, Section(A, I, 0.2, E).at(axis), kind)
+
+
+def test_a_flat_two_hinged_arch_vibrates_as_a_simply_supported_beam():
+    span = 20.0
+    model = _model(span, 0.001, 101)  # rise / radius of gyration = 0.014: no arch action
+    modes = natural_modes(model, np.full(model.axis.count - 1, MASS), np.zeros(model.axis.count), 4)
+    beam = [n * n * np.pi / (2 * span**2) * np.sqrt(E * I / MASS) for n in range(1, 5)]
+    np.testing.assert_allclose(modes.frequency_hz, beam, rtol=1e-4)  # 100 cubic elements
+    # shapes are scaled to a largest station translation of 1: a sine whose crest falls between
+    # stations is scaled by the largest sampled value
+    x = model.axis.x
+    peaks = [np.abs(np.sin(n * np.pi * x / span)).max() for n in range(1, 5)]
+    np.testing.assert_allclose(modes.modal_mass_t, MASS * span / 2 / np.square(peaks), rtol=1e-4)
+    assert modes.symmetry == ("symmetric", "antisymmetric", "symmetric", "antisymmetric")
+    assert modes.total_mass_t == pytest.approx(MASS * span, rel=1e-6)
+
+
+def _dense(axis: Axis, kind: SupportKind):
+    """K and M of the arch, built here from the element formulas (pinned or fixed ends)."""
+    n = axis.count
+    K = np.zeros((3 * n, 3 * n))
+    M = np.zeros((3 * n, 3 * n))
+    for e in range(n - 1):
+        dx, dy = axis.x[e + 1] - axis.x[e], axis.y[e + 1] - axis.y[e]
+        L = float(np.hypot(dx, dy))
+        c, s = dx / L, dy / L
+        k = np.zeros((6, 6))
+        k[np.ix_([0, 3], [0, 3])] = E * A / L * np.array([[1, -1], [-1, 1]])
+        b = E * I / L**3 * np.array([[12, 6 * L, -12, 6 * L], [6 * L, 4 * L * L, -6 * L, 2 * L * L],
+                                     [-12, -6 * L, 12, -6 * L], [6 * L, 2 * L * L, -6 * L, 4 * L * L]])
+        k[np.ix_([1, 2, 4, 5], [1, 2, 4, 5])] = b
+        m = np.zeros((6, 6))
+        m[np.ix_([0, 3], [0, 3])] = MASS * L / 6 * np.array([[2, 1], [1, 2]])
+        m[np.ix_([1, 2, 4, 5], [1, 2, 4, 5])] = MASS * L / 420 * np.array(
+            [[156, 22 * L, 54, -13 * L], [22 * L, 4 * L * L, 13 * L, -3 * L * L],
+             [54, 13 * L, 156, -22 * L], [-13 * L, -3 * L * L, -22 * L, 4 * L * L]])
+        T = np.zeros((6, 6))
+        for o in (0, 3):
+            T[o:o + 3, o:o + 3] = [[c, s, 0], [-s, c, 0], [0, 0, 1]]
+        idx = list(range(3 * e, 3 * e + 6))
+        K[np.ix_(idx, idx)] += T.T @ k @ T
+        M[np.ix_(idx, idx)] += T.T @ m @ T
+    fixed = [0, 1, 3 * n - 3, 3 * n - 2] + ([2, 3 * n - 1] if kind is SupportKind.FIXED else [])
+    free = [d for d in range(3 * n) if d not in fixed]
+    return K[np.ix_(free, free)], M[np.ix_(free, free)]
+
+
+@pytest.mark.parametrize("rise,kind", [(2.0, SupportKind.TWO_HINGED), (8.0, SupportKind.TWO_HINGED),
+                                       (5.0, SupportKind.FIXED)])
+def test_frequencies_equal_an_independent_dense_eigensolution(rise, kind):
+    model = _model(24.0, rise, 41, kind)
+    modes = natural_modes(model, np.full(model.axis.count - 1, MASS), np.zeros(model.axis.count), 5)
+    K, M = _dense(model.axis, kind)
+    omega2 = scipy.linalg.eigh(K, M, eigvals_only=True)[:5]
+    np.testing.assert_allclose(modes.frequency_hz, np.sqrt(omega2) / (2 * np.pi), rtol=1e-8)
+
+
+def test_the_default_case_reports_frequencies_and_deflections():
+    case = load_case(ROOT / "cases" / "footbridge.toml")
+    analysis = analyse(case)
+    modes = analysis.modes
+    assert modes is not None and modes.frequency_hz.size == case.analysis.natural_modes
+    assert np.all(np.diff(modes.frequency_hz) >= 0)
+    # the mass is the permanent cases' downward load over g (their self-weight case holds the rib)
+    permanent = [k for k, g in enumerate(analysis.loads.cases.groups) if g == "dead"]
+    weight = -analysis.loads.cases.select(permanent).total_force()[:, 1].sum()
+    assert modes.total_mass_t == pytest.approx(weight / G, rel=1e-9)
+    rows = {r.name: r for r in check(case, analysis).rows}
+    assert "natural frequency, lowest vertical mode" in rows
+    assert rows["natural frequency, lowest vertical mode"].value == pytest.approx(modes.frequency_hz[0])
+    assert "pedestrian excitation" in rows["natural frequency, lowest vertical mode"].note
+    assert "vertical deflection" in rows
