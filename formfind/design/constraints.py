@@ -162,6 +162,16 @@ def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int, symmetr
                   envelope_level, fixed_rise, coupled, symmetric)
 
 
+def admissible(limits: Limits, q: tuple[np.ndarray, ...], y: np.ndarray) -> bool:
+    """True if ordinates ``y`` meet every equality and inequality block of ``limits`` with right-hand
+    sides ``q`` (to 1e-9 m)."""
+    st = limits.structure
+    if st.equality.shape[0] and np.abs(st.equality @ y - limits.g).max() > 1e-9:
+        return False
+    return all(float(np.max(block @ y - qq, initial=-np.inf)) <= 1e-9
+               for (_, block), qq in zip(st.blocks, q, strict=True))
+
+
 def half_depth(section: Section, axis: Axis) -> np.ndarray:
     """Half the rib depth measured vertically at each station (m)."""
     return 0.5 * section.at(axis).depth_m / np.maximum(np.abs(np.cos(axis.theta)), 1e-6)

@@ -27,7 +27,7 @@ from dataclasses import replace
 import numpy as np
 
 from formfind.analysis.response import Response
-from formfind.design.constraints import Limits, half_depth, infeasible_message
+from formfind.design.constraints import Limits, admissible, half_depth, infeasible_message
 from formfind.design.fairness import assess
 from formfind.design.governing import (
     analyse_governing,
@@ -76,7 +76,7 @@ def find_nearest(case: Case, axis: Axis, section: Section, limits: Limits) -> Sh
     peak = float(np.abs(response.M).max()) if response.count else 0.0
     history = [Iteration(0, 0.0, 0.0, 0.0)]
     q = limits.rhs(half_depth(section, reference))
-    if peak <= f.moment_limit_kNm * (1 + LIMIT_ROUND_OFF) and _admissible(limits, q, reference.y):
+    if peak <= f.moment_limit_kNm * (1 + LIMIT_ROUND_OFF) and admissible(limits, q, reference.y):
         return _result(case, reference, reference, response, peak, None, limits, section, ShapeMethod.REFERENCE,
                        tuple(history), 0.0)  # the reference itself is admissible: nothing to move
     exact = (case.supports.kind is SupportKind.THREE_HINGED and limits.fixed_rise and not loads_move(case)
@@ -93,15 +93,6 @@ def _data(limits: Limits, axis: Axis, section: Section, moments, radius: float |
     upper = np.full(n, np.inf) if radius is None else axis.y + radius
     return ProgramData(model=moments, c=np.ones((moments.states, n)), w=tributary(axis), g=limits.g,
                        q=limits.rhs(half_depth(section, axis)), lower=lower, upper=upper)
-
-
-def _admissible(limits: Limits, q: tuple[np.ndarray, ...], y: np.ndarray) -> bool:
-    """Every equality and inequality of the limits holds at ``y`` (to 1e-9 m)."""
-    st = limits.structure
-    if st.equality.shape[0] and np.abs(st.equality @ y - limits.g).max() > 1e-9:
-        return False
-    return all(float(np.max(block @ y - qq, initial=-np.inf)) <= 1e-9
-               for (_, block), qq in zip(st.blocks, q, strict=True))
 
 
 def _exact(case: Case, reference: Axis, section: Section, limits: Limits, response: Response, loads,

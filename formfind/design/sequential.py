@@ -31,7 +31,7 @@ import numpy as np
 from formfind.analysis.frame import FrameModel
 from formfind.analysis.response import Response
 from formfind.analysis.sensitivity import MomentModel, frame_model_moments, statics_model
-from formfind.design.constraints import Limits, half_depth, infeasible_message
+from formfind.design.constraints import Limits, admissible, half_depth, infeasible_message
 from formfind.design.fairness import assess
 from formfind.design.governing import (
     analyse_governing,
@@ -141,7 +141,7 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
     if certificate.y is None:
         raise FormFindingError(infeasible_message(limits, open_data.q, certificate.status.value))
     for number in range(1, f.max_iterations + 1):
-        restoring = not _admissible(limits, open_data, y)
+        restoring = not admissible(limits, open_data.q, y)
         if not restoring and _certified(case, current, certificate, states, axis):
             break
         if restoring or float(np.abs(certificate.y - y).max()) <= radius:
@@ -189,7 +189,7 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
                 history.append(Iteration(number, current, 0.0, 0.0))
             break  # no step longer than the tolerance decreases the objective: a local optimum
     else:
-        if not (_admissible(limits, open_data, y) and _certified(case, current, certificate, states, axis)):
+        if not (admissible(limits, open_data.q, y) and _certified(case, current, certificate, states, axis)):
             hint = ("; HiGHS returns vertex solutions, which a sequential loop may not settle on: try solver = "
                     '"clarabel"') if f.solver.value == "highs" else ""
             moved = history[-1].max_change_m if history else float("nan")
@@ -210,15 +210,6 @@ def _certified(case: Case, current: float, certificate: ProgramSolution, states:
         return False
     bound = reported(case.find.objective, certificate.dual_bound, states, axis)
     return current - bound <= case.find.optimality_gap * max(abs(current), 1e-300)
-
-
-def _admissible(limits: Limits, data: ProgramData, y: np.ndarray) -> bool:
-    """True if ordinates ``y`` meet every equality and inequality block (to 1e-9 m)."""
-    st = limits.structure
-    if st.equality.shape[0] and np.abs(st.equality @ y - limits.g).max() > 1e-9:
-        return False
-    return all(float(np.max(block @ y - q, initial=-np.inf)) <= 1e-9 for (_, block), q in zip(st.blocks, data.q,
-                                                                                             strict=True))
 
 
 def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: Response, loads: StationLoads,
@@ -258,7 +249,7 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
             value = exact_value(f.objective, trial, candidate, f.kern_fraction)
             if halving == 0 and value > limit:  # aim the next program below the limit by the overshoot
                 aim = max(optimum * (1 + 0.5 * slack), aim - (value - limit))
-            if value <= limit and _admissible(limits, replace(data, q=limits.rhs(half_depth(section, candidate))), y):
+            if value <= limit and admissible(limits, limits.rhs(half_depth(section, candidate)), y):
                 history.append(Iteration(history[-1].number + 1, value, t * float(np.abs(direction).max()),
                                          float(np.abs(data.moments(y) - trial.M).max())))
                 axis, response, loads, model = candidate, trial, trial_loads, trial_model
