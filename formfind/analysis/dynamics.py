@@ -169,3 +169,23 @@ def case_modes(case, analysis, count: int) -> Modes:
         rib = case.section.unit_weight_kN_m3 * area
     mass, lumped = permanent_mass(model, loads.select(states), rib)
     return natural_modes(model, mass, lumped, count)
+
+
+def resonant_acceleration(modes: Modes, x: np.ndarray, load_kN_m: float | np.ndarray, damping_ratio: float) -> np.ndarray:
+    """Peak vertical acceleration of each mode at resonance under a harmonic vertical line load, m/s2.
+
+    The load (amplitude ``load_kN_m`` per horizontal metre, a number or one value per station) acts
+    along the span in phase with each mode's vertical motion (downwards where the mode moves down, the
+    adverse placing); one mode at a time, in steady state at its own frequency: the modal amplitude is
+    F / (2 zeta K) with K = omega^2 M*, so the peak acceleration is F / (2 zeta M*) x max |phi_y|,
+    with F = integral of p |phi_y| dx (trapezoidal rule over the stations) and M* the modal mass.
+    (Clough & Penzien, *Dynamics of Structures*, steady-state harmonic response at resonance; from memory.)
+    Units: kN, m, t, so accelerations in m/s2.
+    """
+    if not damping_ratio > 0:
+        raise AnalysisError("a resonant acceleration needs a damping ratio > 0")
+    p = np.broadcast_to(np.asarray(load_kN_m, dtype=float), x.shape)
+    phi_y = np.abs(modes.shapes[:, :, 1])  # (modes, stations)
+    f = p * phi_y
+    force = 0.5 * ((f[:, 1:] + f[:, :-1]) * np.diff(x)).sum(axis=1)
+    return force / (2.0 * damping_ratio * modes.modal_mass_t) * phi_y.max(axis=1)

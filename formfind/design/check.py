@@ -36,8 +36,10 @@ from formfind.analysis import statics
 from formfind.analysis.deflection import Deflections, deflections
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.frame import influence_lines, unit_loads
+from formfind.analysis.long_term import LongTerm, long_term
 from formfind.analysis.response import EFFECTS, Response
 from formfind.analysis.stability import design_moments
+from formfind.design.footfall import CrowdResponse, crowd_response
 from formfind.enums import ActionKind, EccentricityLimit, LimitState, SupportKind, Verdict
 from formfind.model.case import Case
 from formfind.model.loads import StationLoads
@@ -147,6 +149,8 @@ class CheckResult:
         deflections: station displacements of every combination state (`formfind.analysis.deflection`).
         strength_states: the states the strength arrays hold (ultimate and accidental combinations; the
             serviceability ones are judged by their deflection).
+        long_term: the permanent load after creep and shrinkage (`formfind.analysis.long_term`), or None.
+        crowd: a footbridge's resonant crowd response (`formfind.design.footfall`), or None.
     """
 
     rows: tuple[CheckRow, ...]
@@ -161,6 +165,8 @@ class CheckResult:
     imperfections: tuple = ()
     deflections: Deflections | None = None
     strength_states: tuple[str, ...] = ()
+    long_term: LongTerm | None = None
+    crowd: CrowdResponse | None = None
 
     @property
     def passed(self) -> bool:
@@ -306,8 +312,17 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
                              response.names[k], None, None, INFO, text))
     moved = deflections(analysis, combinations=analysis.combinations.count > 0)
     rows += _deflection_rows(case, moved, analysis.axis.span_m)
+    crowd = None
     if analysis.modes is not None:
-        rows += _frequency_rows(analysis.modes, settings.pedestrian_bridge)
+        rows += _frequency_rows(analysis.modes, settings.pedestrian_bridge, settings.deck_width_m is not None)
+        if settings.pedestrian_bridge and settings.deck_width_m is not None:
+            crowd = crowd_response(analysis.modes, analysis.axis.x, settings.deck_width_m,
+                                   settings.crowd_density_per_m2, settings.damping_ratio)
+            rows.append(_crowd_row(crowd, settings))
+    lasting = None
+    if case.long_term.active:
+        lasting = long_term(analysis)
+        rows += _long_term_rows(lasting, analysis.axis.span_m, settings.min_buckling_factor)
     thrust_rows: tuple[ThrustLineRow, ...] = ()
     collapse: tuple = ()
     if settings.unreinforced:
@@ -318,7 +333,7 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     ratio = np.divide(np.abs(M).max(axis=1) if response.count else np.zeros(0), first, out=np.ones_like(first),
                       where=first > 0)
     return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse,
-                       tuple(design.imperfections.values()), moved, response.names)
+                       tuple(design.imperfections.values()), moved, response.names, lasting, crowd)
 
 
 def _group_method(response: Response, method: tuple[str, ...], group: str) -> str:
@@ -466,7 +481,7 @@ PEDESTRIAN_RANGES = ((1.7, 2.1, "the range of maximum risk"), (1.0, 1.7, "a rang
                      (2.1, 2.6, "a range of medium risk"), (2.6, 5.0, "the range of low risk (second harmonic)"))
 
 
-def _frequency_rows(modes, pedestrian: bool) -> list[CheckRow]:
+def _frequency_rows(modes, pedestrian: bool, accelerations: bool) -> list[CheckRow]:
     """The lowest natural frequency of each direction in the plane, for information; on a footbridge,
     whether it lies where walking excites a deck (the acceleration check is the designer's)."""
     rows = []
@@ -479,11 +494,64 @@ def _frequency_rows(modes, pedestrian: bool) -> list[CheckRow]:
         note = f"mode {j + 1} of {len(modes.direction)}, {modes.symmetry[j]}, modal mass {modes.modal_mass_t[j]:.4g} t"
         if pedestrian:
             hit = next((text for lo, hi, text in PEDESTRIAN_RANGES if lo <= f < hi), None)
-            note += (f"; inside {hit} for pedestrian excitation (Setra 2006 guide, from memory): check the "
-                     "accelerations" if hit else "; outside the ranges of pedestrian excitation (Setra 2006 guide, "
+            then = ("see the acceleration row" if accelerations else
+                    "give [check] deck_width_m for an estimate of the accelerations")
+            note += (f"; inside {hit} for pedestrian excitation (Setra 2006 guide, from memory): {then}" if hit else "; outside the ranges of pedestrian excitation (Setra 2006 guide, "
                      "from memory)")
         rows.append(CheckRow(f"natural frequency, lowest {direction} mode", f, None, "Hz", None, "permanent",
                              f"mode {j + 1}", None, None, INFO, note))
+    return rows
+
+
+def _crowd_row(crowd: CrowdResponse, settings) -> CheckRow:
+    """The footbridge's peak vertical acceleration under a crowd in step with its worst mode."""
+    limit = settings.acceleration_limit_m_s2
+    source = "crowd load of the Setra 2006 footbridge guide, from memory"
+    if crowd.mode is None:
+        return CheckRow("pedestrian vertical acceleration", 0.0, limit, "m/s2", 0.0, "crowd", "no mode", None, None,
+                        PASS, f"no natural mode lies where walking excites a deck (1.25-2.3 Hz, 2.5-4.6 Hz; {source})")
+    a = crowd.acceleration_m_s2
+    note = (f"mode {crowd.mode + 1} at {crowd.frequency_hz:.3g} Hz, harmonic {crowd.harmonic}, psi {crowd.psi:.3g}; "
+            f"{settings.crowd_density_per_m2:g} pedestrians/m2 on a {settings.deck_width_m:g} m walkway act as "
+            f"{crowd.equivalent_per_m2:.3g} in step per m2 ({crowd.load_kN_m2 * 1000:.3g} N/m2); damping "
+            f"{settings.damping_ratio:g} of critical; {source}; the crowd's own mass left out")
+    return CheckRow("pedestrian vertical acceleration", a, limit, "m/s2", a / limit, "crowd",
+                    f"mode {crowd.mode + 1}", None, None, PASS if a <= limit else FAIL, note)
+
+
+def _long_term_rows(lasting: LongTerm, span_m: float, min_factor: float) -> list[CheckRow]:
+    """Creep and shrinkage of the permanent load: thrust, crown deflection, shrinkage bending (information)
+    and the buckling factor with the creep-reduced modulus (verdict)."""
+    phi, chi = lasting.creep_coefficient, lasting.ageing_coefficient
+    modulus = f"E_eff = E / (1 + chi phi) = {lasting.effective_modulus_ratio:.4g} E (phi {phi:g}, chi {chi:g})"
+    shrink = (f"shrinkage {lasting.shrinkage_strain:g} as a uniform drop of {lasting.shrinkage_drop_C:.4g} degC under "
+              f"E_eff" if lasting.shrinkage_strain > 0 else "no shrinkage")
+    rows = [CheckRow("long-term thrust", lasting.thrust_kN, None, "kN", None, "permanent", "long term", None, None,
+                     INFO, f"permanent cases unfactored {lasting.thrust_permanent_kN:.5g} kN (unchanged by creep of "
+                     f"a rib that creeps alike) + shrinkage {lasting.thrust_shrinkage_kN:.4g} kN; {shrink}; {modulus}")]
+    d = lasting.crown_deflection_m
+    ratio = f"span/{span_m / abs(d):.0f}" if d != 0 else "none"
+    rows.append(CheckRow("long-term crown deflection", d * 1000, None, "mm", None, "permanent", "long term",
+                         lasting.crown_station, float(lasting.x[lasting.crown_station]), INFO,
+                         f"(1 + phi) x {lasting.uy_elastic_m[lasting.crown_station] * 1000:.4g} mm at loading, plus "
+                         f"shrinkage; {ratio}; positive up"))
+    if lasting.shrinkage_strain > 0:
+        peak = int(np.argmax(np.abs(lasting.moment_shrinkage_kNm)))
+        equivalent = lasting.shrinkage_drop_C * lasting.effective_modulus_ratio
+        rows.append(CheckRow("bending from shrinkage", float(lasting.moment_shrinkage_kNm[peak]), None, "kNm", None,
+                             "permanent", "shrinkage", peak, float(lasting.x[peak]), INFO,
+                             f"{shrink}; to carry it into the strength combinations add a load case with a uniform "
+                             f"temperature change of {-equivalent:.4g} degC (the same forces with E)"))
+    factor = lasting.buckling_long_term
+    if factor is None:
+        rows.append(CheckRow("long-term buckling factor", float("inf"), min_factor, "-", None,
+                             "permanent", "long term", None, None, INFO, "no compression under the permanent load"))
+        return rows
+    elastic = lasting.buckling_elastic
+    rows.append(CheckRow("long-term buckling factor", factor, min_factor, "-", min_factor / factor,
+                         "permanent", "long term", None, None, PASS if factor >= min_factor else FAIL,
+                         f"unfactored permanent cases with the creep-reduced modulus E / (1 + phi) = "
+                         f"{1 / (1 + phi):.4g} E; {elastic:.4g} with E at loading"))
     return rows
 
 

@@ -153,6 +153,10 @@ class CheckSettings:
     imperfection_over_span: float = schema.default(schema.CHECK, "imperfection_over_span")
     deflection_limit_ratio: float = schema.default(schema.CHECK, "deflection_limit_ratio")
     pedestrian_bridge: bool = schema.default(schema.CHECK, "pedestrian_bridge")
+    deck_width_m: float | None = schema.default(schema.CHECK, "deck_width_m")
+    crowd_density_per_m2: float = schema.default(schema.CHECK, "crowd_density_per_m2")
+    damping_ratio: float = schema.default(schema.CHECK, "damping_ratio")
+    acceleration_limit_m_s2: float = schema.default(schema.CHECK, "acceleration_limit_m_s2")
     second_order: SecondOrderMethod = schema.default(schema.CHECK, "second_order")
     patterned_load_kN_m: float | None = None
     patterned_factors: tuple[tuple[str, float], ...] = ()
@@ -171,6 +175,23 @@ class OutputSettings:
     setting_out_interval_m: float = schema.default(schema.OUTPUTS, "setting_out_interval_m")
     station_label_interval_m: float = schema.default(schema.OUTPUTS, "station_label_interval_m")
     arc_tolerance_mm: float = schema.default(schema.OUTPUTS, "arc_tolerance_mm")
+
+
+@dataclass(frozen=True)
+class LongTermSettings:
+    """Creep and shrinkage of a concrete rib (see `formfind.model.schema.LONG_TERM`); dimensionless.
+
+    ``creep_coefficient`` phi, ``ageing_coefficient`` chi, ``shrinkage_strain`` positive shortening.
+    """
+
+    creep_coefficient: float = schema.default(schema.LONG_TERM, "creep_coefficient")
+    ageing_coefficient: float = schema.default(schema.LONG_TERM, "ageing_coefficient")
+    shrinkage_strain: float = schema.default(schema.LONG_TERM, "shrinkage_strain")
+
+    @property
+    def active(self) -> bool:
+        """True when the rib creeps or shrinks."""
+        return self.creep_coefficient > 0 or self.shrinkage_strain > 0
 
 
 @dataclass(frozen=True)
@@ -255,6 +276,7 @@ class Case:
     outputs: OutputSettings = OutputSettings()
     check: CheckSettings = CheckSettings()
     study: StudySettings = StudySettings()
+    long_term: LongTermSettings = LongTermSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
     document: Document = Document()
@@ -423,6 +445,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
     outputs_raw = section(schema.OUTPUTS, required=False)
     check_raw = section(schema.CHECK, required=False)
     study_raw = section(schema.STUDY, required=False)
+    long_term_raw = section(schema.LONG_TERM, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     _limits(cases, combinations, geometry, file)
@@ -452,6 +475,10 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             imperfection_over_span=check_raw["imperfection_over_span"],
             deflection_limit_ratio=check_raw["deflection_limit_ratio"],
             pedestrian_bridge=check_raw["pedestrian_bridge"],
+            deck_width_m=check_raw["deck_width_m"],
+            crowd_density_per_m2=check_raw["crowd_density_per_m2"],
+            damping_ratio=check_raw["damping_ratio"],
+            acceleration_limit_m_s2=check_raw["acceleration_limit_m_s2"],
             second_order=check_raw["second_order"],
             patterned_load_kN_m=check_raw["patterned_load_kN_m"],
             patterned_factors=_patterned_factors(check_raw, cases, combinations, file),
@@ -461,6 +488,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             min_collapse_factor=check_raw["min_collapse_factor"],
         ),
         study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),
+        long_term=LongTermSettings(**long_term_raw),
         source=file,
         defaults_used=tuple(defaults),
         document=Document(meta["project"], meta["job_number"], meta["revision"], meta["drawn_by"],

@@ -357,6 +357,17 @@ CHECK = Table(
             positive=True, maximum=1e6),
         Key("pedestrian_bridge", "boolean", "Say where a natural frequency lies in the ranges in which walking "
             "people excite a footbridge (vertical and longitudinal, first and second harmonic).", default=False),
+        Key("deck_width_m", "number", "Width of the walkway a crowd stands on, for the peak vertical acceleration of "
+            "a footbridge under a resonant crowd (with pedestrian_bridge); not given: no acceleration check.", "m",
+            default=None, positive=True, maximum=100.0),
+        Key("crowd_density_per_m2", "number", "Pedestrians per square metre of walkway in the crowd that walks in "
+            "step with a mode (0.5: a sparse crowd, an example).", "1/m2", default=0.5, positive=True, maximum=3.0),
+        Key("damping_ratio", "number", "Modal damping as a fraction of critical, for the acceleration check "
+            "(0.005 is an example for a welded steel rib; take yours from the guidance you design to).",
+            default=0.005, positive=True, maximum=0.2),
+        Key("acceleration_limit_m_s2", "number", "Largest peak vertical acceleration of the walkway allowed under "
+            "the resonant crowd (1.0 is an example, not a code value).", "m/s2", default=1.0, positive=True,
+            maximum=20.0),
         Key("second_order", SecondOrderMethod, "How second-order moments are found where a buckling factor "
             "is below second_order_below: a P-Delta solve on the deflected arch, or the amplification "
             "1 / (1 - 1/alpha).", default=SecondOrderMethod.P_DELTA.value),
@@ -376,6 +387,22 @@ CHECK = Table(
             default=""),
         Key("min_collapse_factor", "number", "Least collapse load factor on collapse_case.", default=1.0,
             positive=True),
+    ),
+)
+
+LONG_TERM = Table(
+    "long_term",
+    "Creep and shrinkage of a concrete rib: the long-term state of the permanent load. Coefficients are the "
+    "designer's, from the governing code's models for the concrete, its age at loading and its exposure.",
+    (
+        Key("creep_coefficient", "number", "Final creep coefficient phi: creep strain over the elastic strain "
+            "of a stress held from the age of loading; 0: no creep.", default=0.0, minimum=0.0, maximum=10.0),
+        Key("ageing_coefficient", "number", "Ageing coefficient chi of the age-adjusted effective modulus "
+            "E / (1 + chi phi), for stresses that build up gradually (0.8 is common practice).", default=0.8,
+            minimum=0.0, maximum=1.0),
+        Key("shrinkage_strain", "number", "Final free shrinkage strain of the rib, positive shortening (e.g. "
+            "0.0003); acts as a uniform temperature drop of strain / thermal_expansion_per_C.", default=0.0,
+            minimum=0.0, maximum=0.01),
     ),
 )
 
@@ -512,7 +539,8 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, STUDY, OUTPUTS,
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, LONG_TERM, STUDY,
+                                 OUTPUTS,
                                  CASES, COMBINATIONS)
 
 
