@@ -126,3 +126,24 @@ def test_a_tapered_rib_on_a_symmetric_axis_is_symmetric_without_a_station_at_mid
     rib = Section(0.4, 0.02, 0.8, 3e7, width_m=0.5, variation=SectionVariation.TAPERED, springing_depth_m=1.2)
     depth = rib.at(axis).depth_m
     np.testing.assert_allclose(depth, depth[::-1], atol=1e-12)
+
+
+def test_spline_slopes_match_scipy_cubic_spline():
+    """The banded solve for the tangents of every stretch at once gives the slopes of scipy's
+    CubicSpline (reference library): not-a-knot ends from four stations, natural ends for three, the
+    chord for two. Tolerance 1e-12 of the largest slope: the same linear system, solved differently."""
+    from scipy.interpolate import CubicSpline
+
+    from formfind.model.geometry import spline_slopes
+
+    rng = np.random.default_rng(7)
+    x = np.concatenate([[0.0], np.cumsum(rng.uniform(0.2, 1.0, 39))])
+    y = np.sin(0.3 * x) + rng.normal(0.0, 0.05, x.size)
+    ends = [0, 1, 4, 6, 20, 39]
+    for (a, b), got in zip(zip(ends[:-1], ends[1:]), spline_slopes(x, y, ends), strict=True):
+        xs, ys = x[a:b + 1], y[a:b + 1]
+        if xs.size == 2:
+            want = np.full(2, (ys[1] - ys[0]) / (xs[1] - xs[0]))
+        else:
+            want = CubicSpline(xs, ys, bc_type="not-a-knot" if xs.size > 3 else "natural")(xs, 1)
+        assert np.allclose(got, want, rtol=0, atol=1e-12 * max(1.0, np.abs(want).max()))

@@ -47,9 +47,11 @@ def governing_groups(case: Case) -> tuple[str, ...]:
 
 
 def governing_loads(case: Case, axis: Axis, section: Section) -> StationLoads:
-    """Station loads of the governing states on ``axis``."""
-    load_set = build_load_set(case.cases, case.combinations, axis, section.at(axis))
+    """Station loads of the governing states on ``axis`` (only the cases they hold are built)."""
     wanted = set(governing_groups(case))
+    used = _used_cases(case)
+    load_set = build_load_set(tuple(c for c in case.cases if c.name in used),
+                              tuple(c for c in case.combinations if c.name in wanted), axis, section.at(axis))
     parts = []
     for loads in (load_set.combinations, load_set.cases):
         idx = [i for i, g in enumerate(loads.groups) if g in wanted]

@@ -43,7 +43,14 @@ from formfind.design.governing import (
     reported,
     tributary,
 )
-from formfind.design.program import ProgramData, ProgramSolution, smoothest_within, solve_program
+from formfind.design.program import (
+    ProgramData,
+    ProgramSolution,
+    fairness_matrix,
+    second_differences,
+    smoothest_within,
+    solve_program,
+)
 from formfind.enums import Objective, SupportKind
 from formfind.errors import FormFindingError
 from formfind.model.case import Case
@@ -58,6 +65,7 @@ STALL = 1e-6  # ... which also stops when two kept steps together gain less than
 SHRINK_BELOW, EXPAND_ABOVE = 0.1, 0.5  # trust-region ratio thresholds (actual / predicted decrease)
 FAIR_STEPS = 8  # fairness steps at most
 FAIR_HALVINGS = 6  # a fairness step is halved at most this many times
+FAIR_PROGRESS = 0.01  # a fairness step must take at least this fraction off the axis's roughness (numerical choice)
 FAIR_SLACK = 1e-5  # without [find] fair (or for a fair axis), the slack that only settles a non-unique optimum (checked exactly)
 OPEN_REGION = 10.0  # x span: the trust region of the certificate's program, open in effect
 
@@ -231,6 +239,8 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
     breaks = kink_stations(case, axis.x)
     tolerance = TOLERANCE_OF_SPAN * axis.span_m
     elapsed = 0.0
+    bends = fairness_matrix(axis.x) if axis.count > 3 else second_differences(axis.x)
+    roughness = float(np.sum((bends @ axis.y) ** 2))
     for _ in range(FAIR_STEPS):
         moments = linearise(case, axis, section, response, loads, model)
         data = program_data(case, limits, axis, section, response, moments, None)
@@ -244,16 +254,20 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
         for halving in range(FAIR_HALVINGS):
             t = 0.5 ** halving
             y = axis.y + t * direction
+            rough = float(np.sum((bends @ y) ** 2))
+            if rough > (1.0 - FAIR_PROGRESS) * roughness:
+                continue  # not fairer by enough to be worth a step (nor its analysis)
             candidate = axis_through(axis.x, y, breaks)
             trial, trial_loads, trial_model = analyse_governing(case, candidate, section)
             value = exact_value(f.objective, trial, candidate, f.kern_fraction)
             if halving == 0 and value > limit:  # aim the next program below the limit by the overshoot
                 aim = max(optimum * (1 + 0.5 * slack), aim - (value - limit))
             if value <= limit and admissible(limits, limits.rhs(half_depth(section, candidate)), y):
+                roughness = rough
                 history.append(Iteration(history[-1].number + 1, value, t * float(np.abs(direction).max()),
                                          float(np.abs(data.moments(y) - trial.M).max())))
                 axis, response, loads, model = candidate, trial, trial_loads, trial_model
                 break
         else:
-            break  # no step towards the fairer axis keeps within the limit: stay
+            break  # no step towards the fairer axis keeps within the limit and makes it fairer: stay
     return axis, response, loads, elapsed

@@ -357,8 +357,9 @@ class Axis:
 
 
 def axis_through(x: np.ndarray, y: np.ndarray, breaks: tuple[int, ...] = ()) -> Axis:
-    """The axis through station ordinates ``y`` at abscissae ``x``, its tangents from not-a-knot cubic
-    splines, one per stretch between ``breaks``.
+    """The axis through station ordinates ``y`` at abscissae ``x``, its tangents from cubic splines
+    (not-a-knot ends; natural ends for a stretch of three stations, as `PointSpline`), one per stretch
+    between ``breaks``.
 
     A break is a station where the axis may kink (a funicular polygon turns at a point load): the
     splines end there, so a kink does not make the spline overshoot at its neighbours, and the tangent
@@ -369,15 +370,57 @@ def axis_through(x: np.ndarray, y: np.ndarray, breaks: tuple[int, ...] = ()) -> 
     ends = sorted({0, x.size - 1, *(int(b) for b in breaks if 0 < b < x.size - 1)})
     theta = np.zeros(x.size)
     seen = np.zeros(x.size, dtype=int)
-    for a, b in zip(ends[:-1], ends[1:], strict=True):
-        xs, ys = x[a:b + 1], y[a:b + 1]
-        if xs.size == 2:
-            piece = np.full(2, np.arctan2(ys[1] - ys[0], xs[1] - xs[0]))
-        else:
-            piece = PointSpline(tuple(float(v) for v in xs - xs[0]), tuple(float(v) for v in ys)).angle(xs - xs[0])
-        theta[a:b + 1] += piece
+    for (a, b), slope in zip(zip(ends[:-1], ends[1:], strict=True), spline_slopes(x, y, ends), strict=True):
+        theta[a:b + 1] += np.arctan(slope)
         seen[a:b + 1] += 1
     return Axis(x=x, y=y, theta=theta / seen)
+
+
+def spline_slopes(x: np.ndarray, y: np.ndarray, ends: list[int]) -> list[np.ndarray]:
+    """dy/dx at the stations of each stretch ``ends[j]..ends[j+1]`` of the interpolating cubic spline of
+    that stretch: not-a-knot ends for four stations or more, natural ends for three, the chord for two.
+
+    One banded solve for every stretch at once (the stretches' tridiagonal systems side by side); the
+    same slopes as scipy's CubicSpline (the tests compare them), without building a spline object per
+    stretch.
+    """
+    from scipy.linalg import solve_banded
+
+    pieces = [(a, b) for a, b in zip(ends[:-1], ends[1:], strict=True)]
+    total = sum(b - a + 1 for a, b in pieces)
+    band = np.zeros((3, total))  # rows: upper, diagonal, lower (solve_banded's layout)
+    rhs = np.zeros(total)
+    starts = []
+    at = 0
+    for a, b in pieces:
+        starts.append(at)
+        xs, ys = x[a:b + 1], y[a:b + 1]
+        m = xs.size
+        h = np.diff(xs)
+        d = np.diff(ys) / h
+        s = slice(at, at + m)
+        diag, upper, lower, r = band[1, s], band[0, s], band[2, s], rhs[s]
+        if m == 2:
+            diag[:] = 1.0
+            r[:] = d[0]
+        else:
+            diag[1:-1] = 2.0 * (h[:-1] + h[1:])
+            upper[2:] = h[:-1]  # upper[j] multiplies the unknown j (solve_banded: ab[0, j] = A[j-1, j])
+            lower[:-2] = h[1:]  # ab[2, j] = A[j+1, j]
+            r[1:-1] = 3.0 * (h[1:] * d[:-1] + h[:-1] * d[1:])
+            if m == 3:  # natural ends: zero curvature at both ends
+                diag[0], upper[1], r[0] = 2.0, 1.0, 3.0 * d[0]
+                diag[-1], lower[-2], r[-1] = 2.0, 1.0, 3.0 * d[-1]
+            else:  # not-a-knot: the third derivative is continuous at the second and last-but-one stations
+                span0 = xs[2] - xs[0]
+                diag[0], upper[1] = h[1], span0
+                r[0] = ((h[0] + 2.0 * span0) * h[1] * d[0] + h[0] ** 2 * d[1]) / span0
+                span1 = xs[-1] - xs[-3]
+                diag[-1], lower[-2] = h[-2], span1
+                r[-1] = (h[-1] ** 2 * d[-2] + (2.0 * span1 + h[-1]) * h[-2] * d[-1]) / span1
+        at += m
+    slopes = solve_banded((1, 1), band, rhs, check_finite=False)
+    return [slopes[start:start + b - a + 1] for start, (a, b) in zip(starts, pieces, strict=True)]
 
 
 def place_stations(
