@@ -21,9 +21,8 @@ import scipy.sparse as sp
 
 from formfind.analysis.buckling import _symmetry
 from formfind.analysis.frame import FrameModel, rotation_matrices
-from formfind.enums import ActionKind
 from formfind.errors import AnalysisError
-from formfind.model.loads import SelfWeight, StationLoads
+from formfind.model.loads import StationLoads
 
 G = 9.80665  # m/s2, standard gravity (the kilogram's definition, CGPM 1901)
 
@@ -151,24 +150,6 @@ def natural_modes(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndar
         modal.append(float(full @ (M @ full)))
     frequency = np.sqrt(np.maximum(values, 0.0)) / (2 * np.pi)
     return Modes(frequency, np.array(shapes), tuple(symmetry), tuple(direction), np.array(modal), total)
-
-
-def case_modes(case, analysis, count: int) -> Modes:
-    """Natural modes of an analysed case: mass from its permanent cases (and the rib where no permanent
-    case holds its weight), on the analysis's frame model (built if the engine was statics)."""
-    from formfind.analysis.engine import frame_model
-
-    model = analysis.frame if analysis.frame is not None else frame_model(case, analysis.axis, analysis.section)
-    permanent = [c.name for c in case.cases if c.action is ActionKind.PERMANENT]
-    loads = analysis.loads.cases
-    states = [k for k, g in enumerate(loads.groups) if g in permanent]
-    own_weight = any(isinstance(ld, SelfWeight) for c in case.cases if c.name in permanent for ld in c.loads)
-    rib = None
-    if not own_weight:
-        area = 0.5 * (analysis.section.area_m2[:-1] + analysis.section.area_m2[1:])
-        rib = case.section.unit_weight_kN_m3 * area
-    mass, lumped = permanent_mass(model, loads.select(states), rib)
-    return natural_modes(model, mass, lumped, count)
 
 
 def resonant_acceleration(modes: Modes, x: np.ndarray, load_kN_m: float | np.ndarray, damping_ratio: float) -> np.ndarray:

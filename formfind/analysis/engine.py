@@ -15,14 +15,14 @@ import numpy as np
 
 from formfind.analysis import statics
 from formfind.analysis.buckling import BucklingResult, buckle
-from formfind.analysis.dynamics import Modes
+from formfind.analysis.dynamics import Modes, natural_modes, permanent_mass
 from formfind.analysis.frame import FrameModel, build_frame, solve
 from formfind.analysis.response import Response
-from formfind.enums import SupportKind
+from formfind.enums import ActionKind, SupportKind
 from formfind.errors import AnalysisError
 from formfind.model.case import Case
 from formfind.model.geometry import Axis
-from formfind.model.loads import LoadSet, StationLoads, build_load_set
+from formfind.model.loads import LoadSet, SelfWeight, StationLoads, build_load_set
 from formfind.model.section import SectionAlong
 
 log = logging.getLogger(__name__)
@@ -167,10 +167,24 @@ def analyse(
         frame=model,
     )
     if case.analysis.natural_modes > 0 and want_buckling:
-        from formfind.analysis.dynamics import case_modes
-
         try:
             analysis = replace(analysis, modes=case_modes(case, analysis, case.analysis.natural_modes))
         except AnalysisError as exc:  # no mass: say so, keep the analysis
             log.warning("%s", exc)
     return analysis
+
+
+def case_modes(case: Case, analysis: CaseAnalysis, count: int) -> Modes:
+    """Natural modes of an analysed case: mass from its permanent cases (and the rib where no permanent
+    case holds its weight), on the analysis's frame model (built if the engine was statics)."""
+    model = analysis.frame if analysis.frame is not None else frame_model(case, analysis.axis, analysis.section)
+    permanent = [c.name for c in case.cases if c.action is ActionKind.PERMANENT]
+    loads = analysis.loads.cases
+    states = [k for k, g in enumerate(loads.groups) if g in permanent]
+    own_weight = any(isinstance(ld, SelfWeight) for c in case.cases if c.name in permanent for ld in c.loads)
+    rib = None
+    if not own_weight:
+        area = 0.5 * (analysis.section.area_m2[:-1] + analysis.section.area_m2[1:])
+        rib = case.section.unit_weight_kN_m3 * area
+    mass, lumped = permanent_mass(model, loads.select(states), rib)
+    return natural_modes(model, mass, lumped, count)
