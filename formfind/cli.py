@@ -87,6 +87,20 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--overwrite", action="store_true", help="replace earlier study outputs of this case")
     p.add_argument("-q", "--quiet", action="store_true", help="print only errors")
 
+    p = sub.add_parser("explore", help="a live page in the browser: change rise, span, depth, supports and a trial "
+                       "load, and watch the axis found and checked again",
+                       description="Serve a page on this computer where every change of rise, span, rib depth, "
+                       "supports or trial load finds the axis again and checks it. Stop with Ctrl-C.")
+    p.add_argument("case", type=Path, help="case file (TOML)")
+    p.add_argument("--port", type=int, default=8765, help="port to listen on (default: 8765; 0: any free port)")
+    p.add_argument("--host", default="127.0.0.1",
+                   help="address to listen on (default: 127.0.0.1, this computer only; another address exposes "
+                   "the page to the network)")
+    p.add_argument("--no-browser", action="store_true", help="do not open a browser; just print the address")
+    p.add_argument("--out", type=Path, default=Path("outputs"),
+                   help="output folder: saved case files go to OUT/<case name>/, a study there is shown "
+                   "(default: outputs)")
+
     sub.add_parser("keys", help="print the case-file key reference (Markdown)")
     return parser
 
@@ -105,6 +119,8 @@ def run_cli(argv: list[str] | None = None) -> int:
             return _job(args)
         if args.command == "study":
             return _study(args)
+        if args.command == "explore":
+            return _explore(args)
         if args.command == "keys":
             from formfind.model.schema import reference_markdown
 
@@ -310,6 +326,33 @@ def _study(args: argparse.Namespace) -> int:
             print(f"time per point: {find + chk:.2f} s ({find:.2f} s finding, {chk:.2f} s checking)")
         print(f"wrote {len(written)} files to {folder}/ (manifest-study.json lists them with SHA-256)")
         print(CAUTION_LINE)
+    return EXIT_OK
+
+
+def _explore(args: argparse.Namespace) -> int:
+    """Serve the live page until Ctrl-C; the case is validated and answered once before it listens."""
+    from formfind.explore.answer import Explorer
+    from formfind.explore.server import serve
+
+    if not 0 <= args.port <= 65535:
+        raise UsageError(f"--port: expected 0..65535, got {args.port}")
+    explorer = Explorer(args.case)
+    explorer.answer(explorer.start)  # warm up (imports, first solve), and fail before listening if it cannot
+
+    def ready(url: str) -> None:
+        if args.host not in ("127.0.0.1", "localhost"):
+            print(f"formfind: warning: listening on {args.host}: other computers can reach this page", file=sys.stderr)
+        print(f"formfind explore: {args.case} at {url} (Ctrl-C stops it)", flush=True)
+        print(CAUTION_LINE, flush=True)
+
+    try:
+        serve(explorer, args.out, args.host, args.port, not args.no_browser, ready)
+    except OSError as exc:
+        raise UsageError(f"--host/--port: cannot listen on {args.host}:{args.port} ({exc.strerror or exc}); "
+                         "pass another --port") from None
+    except KeyboardInterrupt:
+        pass
+    print("formfind explore: stopped", file=sys.stderr)
     return EXIT_OK
 
 

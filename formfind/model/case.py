@@ -334,13 +334,22 @@ def load_case(path: str | Path) -> Case:
         CaseError: if the file is missing, unreadable, too large, not UTF-8, not valid TOML, or
             invalid in any key.
     """
+    return parse_case(read_case_table(path), str(path))
+
+
+def read_case_table(path: str | Path) -> dict[str, Any]:
+    """Read a case file's TOML document, not yet validated (`parse_case` validates it).
+
+    Raises:
+        CaseError: if the file is missing, unreadable, too large, not UTF-8 or not valid TOML.
+    """
     import os
     import stat
 
     if not isinstance(path, str | Path) or (isinstance(path, str) and not path):
         from formfind.errors import ArgumentError
 
-        raise ArgumentError(f"load_case: path: expected a file path (str or Path), got {type(path).__name__}")
+        raise ArgumentError(f"read_case_table: path: expected a file path (str or Path), got {type(path).__name__}")
     p = Path(path)
     file = str(path)
     try:
@@ -378,7 +387,7 @@ def load_case(path: str | Path) -> Case:
         raise CaseError(file, "", f"not valid TOML: {exc}") from None
     except RecursionError:
         raise CaseError(file, "", "arrays or tables are nested too deep to read") from None
-    return parse_case(data, file)
+    return data
 
 
 def parse_case(data: dict[str, Any], file: str = "<case>") -> Case:
