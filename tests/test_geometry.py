@@ -140,7 +140,7 @@ def test_spline_slopes_match_scipy_cubic_spline():
     x = np.concatenate([[0.0], np.cumsum(rng.uniform(0.2, 1.0, 39))])
     y = np.sin(0.3 * x) + rng.normal(0.0, 0.05, x.size)
     ends = [0, 1, 4, 6, 20, 39]
-    for (a, b), got in zip(zip(ends[:-1], ends[1:]), spline_slopes(x, y, ends), strict=True):
+    for (a, b), got in zip(zip(ends[:-1], ends[1:], strict=True), spline_slopes(x, y, ends), strict=True):
         xs, ys = x[a:b + 1], y[a:b + 1]
         if xs.size == 2:
             want = np.full(2, (ys[1] - ys[0]) / (xs[1] - xs[0]))
