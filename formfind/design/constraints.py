@@ -109,21 +109,19 @@ def build_limits(case: Case, x: np.ndarray, y0: np.ndarray, states: int, symmetr
     chord = y0[0] + (y0[-1] - y0[0]) * (x - x[0]) / span
     crown = crown_station(case, x)
     fixed_rise = abs(f.rise_max_m - f.rise_min_m) <= 1e-12 * span
-    rows_eq: list[np.ndarray] = []
-    g: list[float] = []
     eye = sp.identity(n, format="csr")
-    for i in (0, n - 1):
-        rows_eq.append(eye[i])
-        g.append(y0[i])
-    if fixed_rise:
-        rows_eq.append(eye[crown])
-        g.append(chord[crown] + f.rise_max_m)
+    held = [0, n - 1] + ([crown] if fixed_rise else [])  # springings, and the crown of a fixed rise
+    g: list[float] = [y0[0], y0[-1]] + ([chord[crown] + f.rise_max_m] if fixed_rise else [])
+    rows_eq = [sp.csr_matrix((np.ones(len(held)), (np.arange(len(held)), held)), shape=(len(held), n))]
     if symmetric:
         if not np.allclose(x + x[::-1], x[0] + x[-1], atol=1e-9 * span):
             raise FormFindingError("a symmetric axis needs stations placed symmetrically about midspan")
-        for i in range(1, n // 2):
-            rows_eq.append(eye[i] - eye[n - 1 - i])
-            g.append(0.0)
+        twins = np.arange(1, n // 2)  # y_i - y_(n-1-i) = 0
+        row = np.arange(twins.size)
+        rows_eq.append(sp.csr_matrix((np.concatenate([np.ones(twins.size), -np.ones(twins.size)]),
+                                      (np.concatenate([row, row]), np.concatenate([twins, n - 1 - twins]))),
+                                     shape=(twins.size, n)))
+        g.extend([0.0] * twins.size)
     blocks: list[tuple[str, sp.csr_matrix]] = []
     q: dict[str, np.ndarray] = {}
     interior = np.arange(1, n - 1)
