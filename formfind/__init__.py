@@ -56,6 +56,12 @@ _PUBLIC = {
 
 
 def __getattr__(name: str):
+    if name == "build":  # the case builders, a module: formfind.build.geometry(...), ...
+        import importlib
+
+        value = importlib.import_module("formfind.model.builders")
+        globals()[name] = value
+        return value
     module = _PUBLIC.get(name)
     if module is None:
         raise AttributeError(f"module 'formfind' has no attribute {name!r}")
@@ -67,7 +73,7 @@ def __getattr__(name: str):
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(_PUBLIC))
+    return sorted(set(globals()) | set(_PUBLIC) | {"build"})
 
 
 __all__ = [
@@ -86,6 +92,7 @@ __all__ = [
     "StudyRow",
     "__version__",
     "analyse",
+    "build",
     "check",
     "find_shape",
     "grid",

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import logging
 import tomllib
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -318,6 +318,13 @@ class Case:
         curve = curve or self.curve()
         x = place_stations(curve, self.stations.count, self.stations.spacing, self.required_stations())
         return Axis.from_curve(curve, x)
+
+    def to_toml(self, header: str = "") -> str:
+        """This case as the text of a case file (`formfind.model.writer`): defaults left out, units as
+        the case file's keys say; ``header`` becomes comment lines at the top."""
+        from formfind.model.writer import case_toml
+
+        return case_toml(self, header)
 
     def hinge_station(self, axis: Axis) -> int:
         """Index of the station at the crown hinge of a three-hinged arch."""
@@ -852,8 +859,11 @@ def _reference(f: dict[str, Any], geometry: Geometry, file: str) -> ReferenceCur
             raise CaseError(file, "find.reference_layer", "applies only to a DXF reference_file")
         try:
             curve = read_reference(path, f["reference_unit"], f["reference_layer"])
-            return fit_to_span(curve, span, geometry.springing_left_m, geometry.springing_right_m,
-                               placed=path.suffix.lower() == ".dxf")
+            fitted = fit_to_span(curve, span, geometry.springing_left_m, geometry.springing_right_m,
+                                 placed=path.suffix.lower() == ".dxf")
+            unit = f["reference_unit"]
+            return replace(fitted, path=str(path.resolve()), layer=f["reference_layer"],
+                           unit=None if unit is None else getattr(unit, "value", unit))
         except ReferenceCurveError as exc:
             raise CaseError(file, key, f"{path.name}: {exc}") from None
         except OSError as exc:

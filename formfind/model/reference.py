@@ -44,6 +44,9 @@ class ReferenceCurve:
     smooth: bool
     source: str
     sha256: str = ""  # of the file it was read from ("" for points in the case file)
+    path: str = ""  # the file's absolute path, its layer and unit as the case named them ("": points, or
+    layer: str | None = None  # a curve changed since it was read); what a case file written back names
+    unit: str | None = None
 
     @cached_property
     def _spline(self):

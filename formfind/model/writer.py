@@ -1,0 +1,270 @@
+"""A `Case` written back as its case file: the table `parse_case` reads, and its TOML text.
+
+The inverse of `formfind.model.case.parse_case`: every value the Case holds goes back under its
+case-file key in the case file's units (MPa where the file says MPa), and a key whose value equals
+its documented default is left out, so the file says what was chosen. A round trip file -> Case ->
+file -> Case gives the same Case (its ``source`` and ``defaults_used`` aside), which the tests check.
+
+A reference curve read from a file is written as that file's absolute path (with its layer and unit),
+so the written case reads the same curve wherever it is saved.
+"""
+
+from __future__ import annotations
+
+import math
+from enum import Enum
+from typing import Any
+
+from formfind.enums import LimitState, SectionVariation, ShapeKind
+from formfind.model import schema
+from formfind.model.loads import (
+    AxleTrain,
+    FillLoad,
+    LineLoad,
+    Load,
+    NormalPressure,
+    PointLoad,
+    SelfWeight,
+    SupportMovement,
+    Temperature,
+)
+
+KN_M2_PER_MPA = 1000.0
+
+
+def _plain(value: Any) -> Any:
+    """A value as TOML holds it: enums by their value, tuples as lists, numpy scalars as floats."""
+    if isinstance(value, Enum):
+        return value.value
+    if isinstance(value, tuple | list):
+        return [_plain(v) for v in value]
+    if hasattr(value, "item") and not isinstance(value, str):  # numpy scalar
+        return value.item()
+    return value
+
+
+def _put(out: dict[str, Any], spec: schema.Table, name: str, value: Any) -> None:
+    """Set ``out[name]`` unless the value is None or the key's default."""
+    if value is None:
+        return
+    value = _plain(value)
+    key = spec.key(name)
+    if not key.required:
+        default = _plain(key.default)
+        if isinstance(value, float) and isinstance(default, int | float) and not isinstance(default, bool):
+            if math.isclose(value, default, rel_tol=0.0, abs_tol=0.0):
+                return
+        elif value == default or (value == [] and default is None):
+            return
+    out[name] = value
+
+
+def _mpa(value_kN_m2: float | None) -> float | None:
+    return None if value_kN_m2 is None else value_kN_m2 / KN_M2_PER_MPA
+
+
+def _load(load: Load) -> dict[str, Any]:
+    kind = {PointLoad: "point", LineLoad: "line", SelfWeight: "self_weight", NormalPressure: "pressure",
+            FillLoad: "fill", Temperature: "temperature", SupportMovement: "support_movement",
+            AxleTrain: "axle_train"}[type(load)]
+    spec = schema.LOAD_TYPES[kind]
+    out: dict[str, Any] = {"type": kind}
+    if isinstance(load, PointLoad):
+        values = {"x_m": load.x_m, "down_kN": load.down_kN, "right_kN": load.right_kN}
+    elif isinstance(load, LineLoad):
+        values = {"from_x_m": load.from_x_m, "to_x_m": load.to_x_m, "start_kN_m": load.start_kN_m,
+                  "end_kN_m": None if load.end_kN_m == load.start_kN_m else load.end_kN_m,
+                  "direction": load.direction, "per": load.projection}
+    elif isinstance(load, SelfWeight):
+        values = {"factor": load.factor}
+    elif isinstance(load, NormalPressure):
+        values = {"inward_kN_m": load.inward_kN_m, "from_x_m": load.from_x_m, "to_x_m": load.to_x_m}
+    elif isinstance(load, FillLoad):
+        values = {"unit_weight_kN_m3": load.unit_weight_kN_m3, "width_m": load.width_m,
+                  "surface_y_m": load.surface_y_m, "cover_m": load.cover_m, "measured_to": load.reference,
+                  "surcharge_kPa": load.surcharge_kPa}
+    elif isinstance(load, Temperature):
+        values = {"uniform_C": load.uniform_C, "difference_C": load.difference_C}
+    elif isinstance(load, SupportMovement):
+        values = {"spread_m": load.spread_m, "settlement_left_m": load.settlement_left_m,
+                  "settlement_right_m": load.settlement_right_m, "rotation_left_rad": load.rotation_left_rad,
+                  "rotation_right_rad": load.rotation_right_rad}
+    else:
+        values = {"offsets_m": load.offsets_m, "loads_kN": load.loads_kN, "step_m": load.step_m,
+                  "direction": load.direction}
+    for name, value in values.items():
+        _put(out, spec, name, value)
+    return out
+
+
+def case_table(case) -> dict[str, Any]:
+    """The case file's table of ``case`` (see the module docstring)."""
+    table: dict[str, Any] = {}
+    meta: dict[str, Any] = {}
+    d = case.document
+    for name, value in (("name", case.name), ("title", case.title), ("description", case.description),
+                        ("project", d.project), ("job_number", d.job_number), ("revision", d.revision),
+                        ("drawn_by", d.drawn_by), ("checked_by", d.checked_by),
+                        ("issue_date", d.issue_date or None)):
+        _put(meta, schema.CASE, name, value)
+    if "issue_date" in meta:
+        import datetime
+
+        meta["issue_date"] = datetime.date.fromisoformat(meta["issue_date"])
+    table["case"] = meta
+
+    g = case.geometry
+    geometry: dict[str, Any] = {"span_m": g.span_m}
+    if g.shape is ShapeKind.POINTS:
+        _put(geometry, schema.GEOMETRY, "shape", g.shape)
+        geometry["points_x_m"] = list(g.points_x_m)
+        geometry["points_y_m"] = list(g.points_y_m)
+    else:
+        geometry["rise_m"] = g.rise_m
+        for name in ("shape", "springing_left_m", "springing_right_m", "m"):
+            _put(geometry, schema.GEOMETRY, name, getattr(g, name))
+    table["geometry"] = geometry
+
+    s = case.supports
+    supports: dict[str, Any] = {}
+    _put(supports, schema.SUPPORTS, "kind", s.kind)
+    for name, value in (("hinge_x_m", s.hinge_x_m), ("tie_area_m2", s.tie_area_m2),
+                        ("tie_modulus_MPa", _mpa(s.tie_modulus_kN_m2))):
+        _put(supports, schema.SUPPORTS, name, value)
+    if supports:
+        table["supports"] = supports
+
+    r = case.section
+    section: dict[str, Any] = {}
+    _put(section, schema.SECTION, "variation", r.variation)
+    section["depth_m"] = r.depth_m
+    rectangle = r.width_m is not None and math.isclose(r.area_m2, r.width_m * r.depth_m, rel_tol=1e-15) and \
+        math.isclose(r.second_moment_m4, r.width_m * r.depth_m**3 / 12.0, rel_tol=1e-15)
+    if r.width_m is not None:
+        section["width_m"] = r.width_m
+    if not rectangle or r.variation is SectionVariation.TAPERED and r.width_m is None:
+        section["area_m2"] = r.area_m2
+        section["second_moment_m4"] = r.second_moment_m4
+    section["elastic_modulus_MPa"] = _mpa(r.elastic_modulus_kN_m2)
+    for name in ("springing_depth_m", "unit_weight_kN_m3", "thermal_expansion_per_C", "shear_area_factor",
+                 "poisson_ratio"):
+        _put(section, schema.SECTION, name, getattr(r, name))
+    table["section"] = section
+
+    stations: dict[str, Any] = {}
+    _put(stations, schema.STATIONS, "count", case.stations.count)
+    _put(stations, schema.STATIONS, "spacing", case.stations.spacing)
+    if stations:
+        table["stations"] = stations
+
+    analysis: dict[str, Any] = {}
+    for key in schema.ANALYSIS.keys:
+        _put(analysis, schema.ANALYSIS, key.name, getattr(case.analysis, key.name))
+    if analysis:
+        table["analysis"] = analysis
+
+    table_find = _find(case)
+    if table_find:
+        table["find"] = table_find
+
+    c = case.check
+    check: dict[str, Any] = {}
+    values = {"compression_limit_MPa": _mpa(c.compression_limit_kN_m2), "tension_limit_MPa": _mpa(c.tension_limit_kN_m2),
+              "patterned_factors": dict(c.patterned_factors) or None}
+    for key in schema.CHECK.keys:
+        value = values[key.name] if key.name in values else getattr(c, key.name)
+        if key.name == "patterned_factors":
+            if value:
+                check[key.name] = value
+            continue
+        _put(check, schema.CHECK, key.name, value)
+    if check:
+        table["check"] = check
+
+    long_term: dict[str, Any] = {}
+    for key in schema.LONG_TERM.keys:
+        _put(long_term, schema.LONG_TERM, key.name, getattr(case.long_term, key.name))
+    if long_term:
+        table["long_term"] = long_term
+
+    study = {name: list(getattr(case.study, name)) for name in ("rise_over_span", "span_m", "depth_m")
+             if getattr(case.study, name)}
+    if study:
+        table["study"] = study
+
+    outputs: dict[str, Any] = {}
+    for key in schema.OUTPUTS.keys:
+        _put(outputs, schema.OUTPUTS, key.name, getattr(case.outputs, key.name))
+    if outputs:
+        table["outputs"] = outputs
+
+    cases = []
+    for lc in case.cases:
+        entry: dict[str, Any] = {"name": lc.name}
+        _put(entry, schema.CASES, "action", lc.action)
+        _put(entry, schema.CASES, "description", lc.description)
+        entry["loads"] = [_load(ld) for ld in lc.loads]
+        cases.append(entry)
+    table["cases"] = cases
+    combinations = []
+    accidental = {lc.name for lc in case.cases if lc.action.value == "accidental"}
+    for combo in case.combinations:
+        entry = {"name": combo.name, "factors": dict(combo.factors)}
+        implied = (LimitState.ACCIDENTAL if any(n in accidental and f != 0 for n, f in combo.factors)
+                   else LimitState.ULTIMATE)
+        if combo.limit_state is not implied:
+            entry["limit_state"] = combo.limit_state.value
+        _put(entry, schema.COMBINATIONS, "description", combo.description)
+        combinations.append(entry)
+    if combinations:
+        table["combinations"] = combinations
+    return table
+
+
+def _find(case) -> dict[str, Any]:
+    f = case.find
+    out: dict[str, Any] = {}
+    spec = schema.FIND
+    rise = case.geometry.rise_m
+    reference = f.reference
+    for key in spec.keys:
+        name = key.name
+        if name in ("rise_min_m", "rise_max_m"):
+            value = getattr(f, name)
+            if reference is None and value is not None and math.isclose(value, rise, rel_tol=1e-15, abs_tol=0.0):
+                continue  # the geometry's rise: the default
+            if reference is not None:
+                out[name] = value  # the reference's own rise is the default; stating it is exact
+                continue
+            _put(out, spec, name, value)
+        elif name == "governing":
+            if f.governing:
+                out[name] = list(f.governing)
+        elif name in ("clearance_x_m", "clearance_y_m", "envelope_x_m", "envelope_y_m"):
+            line = f.clearance if name.startswith("clearance") else f.envelope
+            if line:
+                out[name] = [p[0] if name.endswith("x_m") else p[1] for p in line]
+        elif name.startswith("reference_"):
+            continue
+        else:
+            _put(out, spec, name, getattr(f, name))
+    if reference is not None:
+        if reference.path:  # read from a file: name the file, so the same curve is read again
+            out["reference_file"] = reference.path
+            if reference.layer is not None:
+                out["reference_layer"] = reference.layer
+            if reference.unit is not None:
+                out["reference_unit"] = reference.unit
+        else:
+            out["reference_x_m"] = [float(v) for v in reference.x_m]
+            out["reference_y_m"] = [float(v) for v in reference.y_m]
+    return out
+
+
+def case_toml(case, header: str = "") -> str:
+    """``case`` as the text of a case file (TOML), ``header`` (comment lines) first."""
+    import tomli_w
+
+    text = tomli_w.dumps(case_table(case))
+    lines = "".join(f"# {line}\n" if line else "#\n" for line in header.splitlines())
+    return lines + ("\n" if lines else "") + text
