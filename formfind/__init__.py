@@ -42,6 +42,7 @@ _PUBLIC = {
     "StudyRow": "formfind.design.study",
     "grid": "formfind.design.study",
     "run_study": "formfind.design.study",
+    "least_thickness": "formfind.design.thrust",
     "AnalysisError": "formfind.errors",
     "ArgumentError": "formfind.errors",
     "FormFindingError": "formfind.errors",
@@ -52,6 +53,7 @@ _PUBLIC = {
     "load_case": "formfind.model.case",
     "parse_case": "formfind.model.case",
     "Axis": "formfind.model.geometry",
+    "figures": "formfind.output.package",
 }
 
 
@@ -94,8 +96,10 @@ __all__ = [
     "analyse",
     "build",
     "check",
+    "figures",
     "find_shape",
     "grid",
+    "least_thickness",
     "load_case",
     "parse_case",
     "run_study",

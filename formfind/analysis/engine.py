@@ -33,9 +33,9 @@ class CaseAnalysis:
     """The analysed case: its axis, section, station loads, responses and buckling results.
 
     ``cases`` holds one state per load case (one per position for a moving train); ``combinations``
-    one per combination (likewise expanded). ``buckling`` has one entry per combination, for its
-    state of largest thrust (the most compressed position of a moving train), or is empty when
-    buckling is switched off.
+    one per combination (likewise expanded). ``buckling`` has one entry per combination (per load
+    case where the case has no combination), for its state of largest thrust (the most compressed
+    position of a moving train), or is empty when buckling is switched off.
     """
 
     case: Case
@@ -47,6 +47,38 @@ class CaseAnalysis:
     buckling: tuple[BucklingResult, ...]
     frame: FrameModel | None
     modes: Modes | None = None
+
+    def state(self, name: str) -> Response:
+        """The response of one load state by name (a state, or a case or combination of one state)."""
+        from formfind.analysis.query import find_state
+
+        response, _, k = find_state(self, name)
+        return response.select([k])
+
+    def group(self, name: str) -> Response:
+        """Every state of a case or combination by name (several for a moving train)."""
+        from formfind.analysis.query import group_response
+
+        return group_response(self, name)
+
+    def at(self, name: str, x_m: float):
+        """`SectionForces` of state ``name`` at abscissa ``x_m`` (m), between stations too
+        (`formfind.analysis.query`)."""
+        from formfind.analysis.query import forces_at
+
+        return forces_at(self, name, x_m)
+
+    def reactions_of(self, name: str):
+        """The springings' `Reactions` of state ``name``, in words: thrust (inwards), up, moment."""
+        from formfind.analysis.query import reactions_of
+
+        return reactions_of(self, name)
+
+    def envelope_of(self, name: str):
+        """The `Envelope` of a case or combination over its states: ``M_max_kNm``, ``N_min_kN``, ..."""
+        from formfind.analysis.query import group_envelope
+
+        return group_envelope(self, name)
 
 
 def frame_model(case: Case, axis: Axis, section: SectionAlong, estimate_condition: bool = True) -> FrameModel:
@@ -76,7 +108,8 @@ def respond(
 
 
 def combination_buckling(case: Case, model: FrameModel, loads: StationLoads, response: Response) -> tuple[BucklingResult, ...]:
-    """Buckling of each combination, for its state of largest thrust."""
+    """Buckling of each group of ``loads`` (the combinations, or the load cases of a case without
+    combinations), for its state of largest thrust."""
     out = []
     for group in dict.fromkeys(loads.groups):
         states = [i for i, g in enumerate(loads.groups) if g == group]
@@ -101,7 +134,7 @@ def _buckling_model(case: Case, axis: Axis, section: SectionAlong, model: FrameM
     among them, with the same load states; mode shapes are interpolated back to every station.
     """
     if axis.count <= BUCKLING_STATIONS:
-        return model, loads.combinations, None
+        return model, loads.combinations if case.combinations else loads.cases, None
     keep = set(np.round(np.linspace(0, axis.count - 1, BUCKLING_STATIONS)).astype(int).tolist())
     for xr in case.required_stations():
         keep.add(int(np.argmin(np.abs(axis.x - xr))))
@@ -110,7 +143,8 @@ def _buckling_model(case: Case, axis: Axis, section: SectionAlong, model: FrameM
     idx = np.array(sorted(keep))
     coarse = Axis(axis.x[idx], axis.y[idx], axis.theta[idx])
     coarse_section = case.section.at(coarse)
-    coarse_loads = build_load_set(case.cases, case.combinations, coarse, coarse_section).combinations
+    coarse_set = build_load_set(case.cases, case.combinations, coarse, coarse_section)
+    coarse_loads = coarse_set.combinations if case.combinations else coarse_set.cases
     return frame_model(case, coarse, coarse_section), coarse_loads, coarse
 
 
@@ -148,10 +182,13 @@ def analyse(
     needs_frame = case.supports.kind is not SupportKind.THREE_HINGED or want_buckling
     model = frame_model(case, axis, section) if needs_frame else None
     combos = respond(case, axis, loads.combinations, model, displacements)
+    by_case = respond(case, axis, loads.cases, model, displacements)
     buckling: tuple[BucklingResult, ...] = ()
     if want_buckling and model:
+        # each combination; a case without combinations: each load case
         b_model, b_loads, coarse = _buckling_model(case, axis, section, model, loads)
-        buckling = tuple(_to_stations(b, coarse, axis) for b in combination_buckling(case, b_model, b_loads, combos))
+        reference = combos if case.combinations else by_case
+        buckling = tuple(_to_stations(b, coarse, axis) for b in combination_buckling(case, b_model, b_loads, reference))
         for b in buckling:
             if b.critical_factor < 1.0:
                 log.warning("%s buckles at %.3g times its loads: the arch cannot carry this combination (its "
@@ -161,7 +198,7 @@ def analyse(
         axis=axis,
         section=section,
         loads=loads,
-        cases=respond(case, axis, loads.cases, model, displacements),
+        cases=by_case,
         combinations=combos,
         buckling=buckling,
         frame=model,

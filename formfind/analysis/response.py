@@ -182,6 +182,36 @@ class Envelope:
     max_state: np.ndarray
     min_state: np.ndarray
 
+    @property
+    def N_max_kN(self) -> np.ndarray:
+        """Largest axial force at every station (kN, tension positive), both sides of each station."""
+        return self.maximum[0]
+
+    @property
+    def N_min_kN(self) -> np.ndarray:
+        """Smallest axial force at every station (kN): the largest compression, as a negative number."""
+        return self.minimum[0]
+
+    @property
+    def V_max_kN(self) -> np.ndarray:
+        """Largest shear force at every station (kN), both sides of each station."""
+        return self.maximum[1]
+
+    @property
+    def V_min_kN(self) -> np.ndarray:
+        """Smallest shear force at every station (kN)."""
+        return self.minimum[1]
+
+    @property
+    def M_max_kNm(self) -> np.ndarray:
+        """Largest bending moment at every station (kNm, positive: tension on the intrados)."""
+        return self.maximum[2]
+
+    @property
+    def M_min_kNm(self) -> np.ndarray:
+        """Smallest bending moment at every station (kNm; negative: tension on the extrados)."""
+        return self.minimum[2]
+
 
 def envelope(response: Response, group: str) -> Envelope:
     """The envelope of ``group``'s states in ``response``."""

@@ -371,14 +371,31 @@ def voussoir_weight(axis: Axis, depth_m: float, width_m: float, unit_weight_kN_m
     return StationLoads.from_densities(dist, group="ring self-weight")
 
 
-def least_thickness(axis: Axis, kind: SupportKind = SupportKind.FIXED, at_centroid: bool = True,
+def least_thickness(axis: Axis, kind: SupportKind | str = SupportKind.FIXED, at_centroid: bool = True,
                     tol: float = ZONE_TOLERANCE) -> float:
-    """The least constant depth (m) of a ring on ``axis`` that holds a line of thrust under its own weight.
+    """The least constant depth (m) of a ring on ``axis`` that holds a line of thrust under its own weight
+    (public as ``formfind.least_thickness``).
 
-    Bisection on the depth: each step asks whether a thrust line lies within the ring (one LP). The
-    answer does not depend on the unit weight or the width. Raises FormFindingError if a ring as deep
-    as the span still has none.
+    ``kind``: "fixed" (springings that take a moment: the thrust line may meet them anywhere within the
+    depth), "two_hinged" or "three_hinged" (through the axis there). ``at_centroid``: each voussoir's
+    weight at its own centroid (True), or at the chord midpoint between joints (False, the simpler model
+    of many hand calculations; it gives a slightly different least thickness). Bisection on the depth:
+    each step asks whether a thrust line lies within the ring (one LP); the answer does not depend on
+    the unit weight or the width.
+
+    Raises:
+        FormFindingError: if a ring as deep as the span still holds none.
+        ArgumentError: for an argument of the wrong kind.
     """
+    from formfind import arguments
+
+    arguments.axis(axis, "least_thickness", optional=False)
+    try:
+        kind = SupportKind(kind)
+    except ValueError:
+        raise arguments.ArgumentError(f"least_thickness: kind: expected one of "
+                                      f"{', '.join(k.value for k in SupportKind)}, got {kind!r}") from None
+    arguments.flag(at_centroid, "least_thickness", "at_centroid")
 
     def feasible(depth: float) -> bool:
         loads = voussoir_weight(axis, depth, 1.0, 1.0, at_centroid)

@@ -173,6 +173,17 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
     return out
 
 
+def figures(analysis: CaseAnalysis, checks=None) -> dict[str, object]:
+    """The run's diagrams as matplotlib Figures, by name (``"fig-axis"``, ``"fig-moment-along"``, ...), for a
+    notebook or a script: never shown, never written (``fig.savefig`` writes one; `diagrams` gives them
+    with their captions). ``checks`` (from `formfind.check`) adds the diagrams that need it (deflected
+    shape, influence line, collapse)."""
+    from formfind import arguments
+
+    arguments.instance(analysis, CaseAnalysis, "figures", "analysis")
+    return {diagram.stem: diagram.ax.figure for diagram in diagrams(analysis.case, analysis, checks)}
+
+
 MAX_ENVELOPES = 6  # combinations drawn in one envelope figure: beyond it a figure is unreadable
 
 
