@@ -34,7 +34,7 @@ import numpy as np
 from formfind.analysis.buckling import BucklingResult
 from formfind.analysis.engine import CaseAnalysis, frame_model, respond
 from formfind.analysis.response import Response
-from formfind.enums import SecondOrderMethod
+from formfind.enums import SecondOrderMethod, SupportKind
 from formfind.errors import AnalysisError
 from formfind.model.case import Case
 from formfind.model.geometry import Axis
@@ -118,7 +118,9 @@ def design_moments(case: Case, analysis: CaseAnalysis, response: Response,
         states = [k for k, g in enumerate(response.groups) if g == group]
         if b is None or not ratio or not b.modes.size or not (np.isfinite(b.critical_factor) and b.critical_factor > 1):
             continue
-        chosen = _adverse(case, analysis, loads.select(states), b, ratio * analysis.axis.span_m)
+        p_delta = (b.critical_factor < settings.second_order_below
+                   and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None)
+        chosen = _adverse(case, analysis, loads.select(states), b, ratio * analysis.axis.span_m, p_delta)
         if chosen is None:
             continue
         imperfection, first, model = chosen
@@ -162,11 +164,15 @@ def design_moments(case: Case, analysis: CaseAnalysis, response: Response,
     return DesignMoments(M, N, N_left, tuple(method), amplified, alpha, imperfections)
 
 
-def _adverse(case: Case, analysis: CaseAnalysis, loads: StationLoads, b: BucklingResult, amplitude_m: float):
+def _adverse(case: Case, analysis: CaseAnalysis, loads: StationLoads, b: BucklingResult, amplitude_m: float,
+             p_delta: bool = True):
     """The imperfection of the adverse sign for one combination: (Imperfection, first-order response of
     its states on the imperfect axis, its frame model or None), or None if the mode cannot be applied.
     The sign is chosen on the combination's buckling reference state (its largest thrust), whose mode
-    it is; its other states (train positions) are then analysed with that sign only."""
+    it is; its other states (train positions) are then analysed with that sign only. A three-hinged arch
+    is answered by exact statics, so its imperfect frame model is built only where a P-Delta solve
+    (``p_delta``) will need it."""
+    statics_only = case.supports.kind is SupportKind.THREE_HINGED
     mode = b.modes[0]
     largest = float(np.abs(mode[:, :2]).max())
     if not largest > 0:
@@ -179,10 +185,12 @@ def _adverse(case: Case, analysis: CaseAnalysis, loads: StationLoads, b: Bucklin
         if not np.all(np.diff(axis.x) > 0):
             return None  # an amplitude this large folds the arch over: no meaningful imperfection
         model = (frame_model(case, axis, case.section.at(axis), estimate_condition=False)
-                 if analysis.frame is not None else None)
+                 if analysis.frame is not None and not statics_only else None)
         peak = float(np.abs(respond(case, axis, loads.select(reference), model).M).max())
         if best is None or peak > best[0]:
             best = (peak, Imperfection(b.group, amplitude_m, sign, b.symmetry[0], b.critical_factor, displacement),
                     axis, model)
     _, imperfection, axis, model = best
+    if statics_only and p_delta:
+        model = frame_model(case, axis, case.section.at(axis), estimate_condition=False)
     return imperfection, respond(case, axis, loads, model), model
