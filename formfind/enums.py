@@ -42,6 +42,25 @@ class SectionVariation(StrEnum):
     TAPERED = "tapered"  # rectangular rib, depth linear from crown to springings
 
 
+class SectionProfile(StrEnum):
+    """The shape of the rib's cross-section, its properties computed from its dimensions."""
+
+    RECTANGLE = "rectangle"
+    SOLID_CIRCLE = "solid_circle"
+    TUBE = "tube"
+    BOX = "box"
+    I_SECTION = "i_section"
+
+
+class Material(StrEnum):
+    """Material presets of the rib (example values, each overridable by its own key)."""
+
+    STEEL = "steel"
+    CONCRETE = "concrete"
+    GLULAM = "glulam"
+    MASONRY = "masonry"
+
+
 class ActionKind(StrEnum):
     """The nature of a load case, used by combinations and checks."""
 

@@ -288,10 +288,12 @@ def test_span_scales_the_case_abscissae():
     assert min(xs) == pytest.approx(4.5) and max(xs) == pytest.approx(49.5)
     fixed = explorer.table_for(parse_settings({"supports": "fixed"}, explorer.start))
     assert "hinge_x_m" not in fixed["supports"] and fixed["supports"]["kind"] == "fixed"
-    # a section given by A and I scales geometrically similar
-    deeper = explorer.table_for(parse_settings({"depth_m": 1.22}, explorer.start))["section"]
-    assert deeper["area_m2"] == pytest.approx(0.045946 * 4) and deeper["second_moment_m4"] == pytest.approx(
-        1.96903e-3 * 16)
+    # a tube scales similar (D / t kept): A x 4 and I x 16 for twice the diameter
+    from formfind.model.case import parse_case
+
+    deeper = parse_case(explorer.table_for(parse_settings({"depth_m": 1.22}, explorer.start)), "x").section
+    assert deeper.area_m2 == pytest.approx(explorer.case.section.area_m2 * 4, rel=1e-12)
+    assert deeper.second_moment_m4 == pytest.approx(explorer.case.section.second_moment_m4 * 16, rel=1e-12)
 
 
 def test_settings_reject_what_no_control_can_send():

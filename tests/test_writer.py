@@ -218,8 +218,11 @@ def test_round_trip_is_the_identity(name, tmp_path, everything):
 def test_written_file_leaves_defaults_out_and_keeps_units():
     case = load_case(ROOT / "cases" / "footbridge.toml")
     table = tomllib.loads(case.to_toml("Written back by a test.\nSecond line."))
-    assert table["section"]["elastic_modulus_MPa"] == pytest.approx(210000.0)  # MPa, as the file says
-    assert table["check"]["compression_limit_MPa"] == pytest.approx(250.0)
+    assert table["section"]["material"] == "steel" and "elastic_modulus_MPa" not in table["section"]  # preset's
+    assert table["section"]["profile"] == "tube" and "area_m2" not in table["section"]  # computed from it
+    assert table["check"]["compression_limit_MPa"] == pytest.approx(250.0)  # MPa, as the file says
+    road = tomllib.loads(load_case(ROOT / "cases" / "road-bridge.toml").to_toml())
+    assert road["section"]["elastic_modulus_MPa"] == pytest.approx(35000.0)  # overrides the preset, in MPa
     assert "analysis" not in table  # every analysis setting is its default
     assert "variation" not in table["section"]
     text = case.to_toml("Written back by a test.\nSecond line.")

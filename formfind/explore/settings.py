@@ -10,7 +10,8 @@ What changes (documented on the page too):
 - the rise is held at the page's value (a rise range in [find] is dropped);
 - a new span scales every abscissa of the case (loads, the hinge, clearance and site lines, a drawn
   axis, the reference curve), as a trade study does; heights and axle spacings stay;
-- a new depth changes a rectangular rib's depth (A = b h, I = b h^3 / 12); a section given by A and I is
+- a new depth changes the depth of a rectangle, a box or an I-section (its other dimensions kept); a tube
+  or a solid circle is scaled similar (diameter over wall thickness kept); a section given by A and I is
   scaled geometrically similar, A x (d/d0)^2 and I x (d/d0)^4 (a tapered rib's springing depth by d/d0);
 - the trial load is a variable load case `trial_load` (kN/m per horizontal metre, or kN, downwards)
   and a combination `trial` = every permanent case x 1.0 + the trial load x its factor, judged like the
@@ -143,11 +144,18 @@ def apply(table: dict[str, Any], settings: PageSettings, case, governing: list[s
     if settings.depth_m != d0:
         ratio = settings.depth_m / d0
         section["depth_m"] = settings.depth_m
-        if _number(section, "width_m") is None:
+        profile = section.get("profile")
+        if profile in ("tube", "solid_circle"):
+            _scale_x(section, "wall_thickness_m", ratio)  # a similar tube: D / t kept
+        elif profile is None and _number(section, "width_m") is None:
             for key, power in (("area_m2", 2), ("second_moment_m4", 4)):
                 value = _number(section, key)
                 if value is not None:
                     section[key] = value * ratio**power
+            for key, power in (("lateral_second_moment_m4", 4), ("torsion_constant_m4", 4),
+                               ("warping_constant_m6", 6)):
+                if _number(section, key) is not None:
+                    section[key] = section[key] * ratio**power
         _scale_x(section, "springing_depth_m", ratio)
     find = out.setdefault("find", {})
     find.pop("rise_min_m", None)

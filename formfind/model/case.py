@@ -33,6 +33,7 @@ from formfind.enums import (
     Objective,
     Projection,
     SecondOrderMethod,
+    SectionProfile,
     SectionVariation,
     ShapeKind,
     Solver,
@@ -454,7 +455,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
     meta = section(schema.CASE)
     geometry = _geometry(section(schema.GEOMETRY), file)
     supports = _supports(section(schema.SUPPORTS, required=False), geometry, file)
-    rib = _section(section(schema.SECTION), file)
+    rib = _section(section(schema.SECTION), file, defaults)
     stations = section(schema.STATIONS, required=False)
     settings = section(schema.ANALYSIS, required=False)
     find_raw = section(schema.FIND, required=False)
@@ -586,27 +587,84 @@ def _supports(s: dict[str, Any], geometry: Geometry, file: str) -> Supports:
     return Supports(kind, hinge, s["tie_area_m2"], tie_e)
 
 
-def _section(s: dict[str, Any], file: str) -> Section:
+def _section(s: dict[str, Any], file: str, defaults: list[str] | None = None) -> Section:
+    from formfind.model.profiles import MATERIALS, properties
+    from formfind.model.section import DEFAULT_EXPANSION_PER_C, DEFAULT_POISSON_RATIO, DEFAULT_SHEAR_AREA_FACTOR
+
     variation: SectionVariation = s["variation"]
+    profile, material = s["profile"], s["material"]
     area, inertia, width, depth = s["area_m2"], s["second_moment_m4"], s["width_m"], s["depth_m"]
-    if area is None and inertia is None and width is not None:
+    preset = MATERIALS.get(material) if material is not None else None
+
+    def chosen(key: str, from_preset: float | None, fallback: float | None) -> float | None:
+        if s[key] is not None:
+            return s[key]
+        value = from_preset if from_preset is not None else fallback
+        if defaults is not None and value is not None:
+            origin = f"the {material.value} preset" if from_preset is not None else "default"
+            defaults.append(f"section.{key} = {value:g} ({origin})")
+        return value
+
+    modulus = chosen("elastic_modulus_MPa", preset.elastic_modulus_MPa if preset else None, None)
+    if modulus is None:
+        raise CaseError(file, "section.elastic_modulus_MPa", "missing; expected Young's modulus of the rib in MPa, "
+                        "or a material")
+    poisson = chosen("poisson_ratio", preset.poisson_ratio if preset else None, DEFAULT_POISSON_RATIO)
+    shear = chosen("shear_modulus_MPa", preset.shear_modulus_MPa if preset else None, None)
+    lateral, torsion, warping = s["lateral_second_moment_m4"], s["torsion_constant_m4"], s["warping_constant_m6"]
+    factor = s["shear_area_factor"]
+    if profile is not None:
+        for key, value in (("area_m2", area), ("second_moment_m4", inertia)):
+            if value is not None:
+                raise CaseError(file, f"section.{key}", f"computed from profile = \"{profile.value}\"; leave it out "
+                                "(or the profile, to give it as typed)")
+        try:
+            props = properties(profile, depth, width, s["wall_thickness_m"], s["web_thickness_m"],
+                               s["flange_thickness_m"], poisson)
+        except ValueError as exc:
+            key, _, why = str(exc).partition(": ")
+            raise CaseError(file, f"section.{key}", why) from None
+        area, inertia = props.area_m2, props.second_moment_m4
+        lateral = props.lateral_second_moment_m4 if lateral is None else lateral
+        torsion = props.torsion_constant_m4 if torsion is None else torsion
+        warping = props.warping_constant_m6 if warping is None else warping
+        factor = props.shear_area_factor if factor is None else factor
+    elif area is None and inertia is None and width is not None:
         area, inertia = width * depth, width * depth**3 / 12.0
+        rectangle = properties(SectionProfile.RECTANGLE, depth, width)
+        lateral = rectangle.lateral_second_moment_m4 if lateral is None else lateral
+        torsion = rectangle.torsion_constant_m4 if torsion is None else torsion
+        warping = 0.0 if warping is None else warping
     if area is None or inertia is None:
-        raise CaseError(file, "section.area_m2", "give area_m2 and second_moment_m4, or width_m for a solid rectangle")
+        raise CaseError(file, "section.area_m2", "give a profile, area_m2 and second_moment_m4, or width_m for a "
+                        "solid rectangle")
     if variation is SectionVariation.TAPERED and (width is None or s["springing_depth_m"] is None):
         raise CaseError(file, "section.springing_depth_m", "a tapered rib needs width_m and springing_depth_m")
+    if variation is SectionVariation.TAPERED and profile not in (None, SectionProfile.RECTANGLE):
+        raise CaseError(file, "section.variation", "a tapered rib is a solid rectangle; give profile = "
+                        "\"rectangle\" or none")
     return Section(
         area_m2=area,
         second_moment_m4=inertia,
         depth_m=depth,
-        elastic_modulus_kN_m2=s["elastic_modulus_MPa"] * KN_M2_PER_MPA,
-        unit_weight_kN_m3=s["unit_weight_kN_m3"],
-        thermal_expansion_per_C=s["thermal_expansion_per_C"],
+        elastic_modulus_kN_m2=modulus * KN_M2_PER_MPA,
+        unit_weight_kN_m3=chosen("unit_weight_kN_m3", preset.unit_weight_kN_m3 if preset else None, 0.0),
+        thermal_expansion_per_C=chosen("thermal_expansion_per_C", preset.thermal_expansion_per_C if preset else None,
+                                       DEFAULT_EXPANSION_PER_C),
         variation=variation,
         springing_depth_m=s["springing_depth_m"],
         width_m=width,
-        shear_area_factor=s["shear_area_factor"],
-        poisson_ratio=s["poisson_ratio"],
+        shear_area_factor=DEFAULT_SHEAR_AREA_FACTOR if factor is None else factor,
+        poisson_ratio=poisson,
+        profile=profile,
+        material=material,
+        wall_thickness_m=s["wall_thickness_m"],
+        web_thickness_m=s["web_thickness_m"],
+        flange_thickness_m=s["flange_thickness_m"],
+        lateral_second_moment_m4=lateral,
+        torsion_constant_m4=torsion,
+        warping_constant_m6=warping,
+        shear_modulus_given_kN_m2=None if shear is None else shear * KN_M2_PER_MPA,
     )
 
 

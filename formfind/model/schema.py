@@ -23,10 +23,12 @@ from formfind.enums import (
     FillReference,
     LimitState,
     LoadDirection,
+    Material,
     Objective,
     Projection,
     ReferenceUnit,
     SecondOrderMethod,
+    SectionProfile,
     SectionVariation,
     ShapeKind,
     Solver,
@@ -193,28 +195,54 @@ SUPPORTS = Table(
 
 SECTION = Table(
     "section",
-    "The rib. Give area_m2 and second_moment_m4, or width_m for a solid rectangle; crown values "
-    "where the section varies.",
+    "The rib: a profile by its dimensions (properties computed), or area_m2 and second_moment_m4 as typed "
+    "(width_m alone: a solid rectangle); crown values where the section varies. A material gives example "
+    "values of E, G, unit weight and expansion; a key given explicitly wins.",
     (
         Key("variation", SectionVariation, "How the section varies along the axis.",
             default=SectionVariation.CONSTANT.value),
-        Key("depth_m", "number", "Overall depth of the rib normal to the axis.", "m", positive=True),
-        Key("width_m", "number", "Breadth of a solid rectangular rib (A = b h, I = b h^3/12).", "m",
+        Key("profile", SectionProfile, "Shape of the cross-section, properties computed from its dimensions: "
+            "rectangle (width_m x depth_m), solid_circle (diameter depth_m), tube (outer diameter depth_m, "
+            "wall_thickness_m), box (outside width_m x depth_m, web_thickness_m, flange_thickness_m), i_section "
+            "(flange width_m, depth_m, web_thickness_m, flange_thickness_m; web in the arch's plane). Not given: "
+            "area_m2 and second_moment_m4 as typed.", default=None),
+        Key("depth_m", "number", "Overall depth of the rib normal to the axis, in the arch's plane (a circle's "
+            "or tube's outer diameter).", "m", positive=True),
+        Key("width_m", "number", "Breadth of the rib (of the flanges of an I-section); alone, a solid rectangle "
+            "(A = b h, I = b h^3/12).", "m", default=None, positive=True),
+        Key("wall_thickness_m", "number", "Wall thickness of a tube.", "m", default=None, positive=True,
+            when=("profile", ("tube",))),
+        Key("web_thickness_m", "number", "Thickness of each web of a box, or of the web of an I-section.", "m",
+            default=None, positive=True, when=("profile", ("box", "i_section"))),
+        Key("flange_thickness_m", "number", "Thickness of each flange of a box or an I-section.", "m",
+            default=None, positive=True, when=("profile", ("box", "i_section"))),
+        Key("area_m2", "number", "Cross-section area (not with a profile).", "m2", default=None, positive=True),
+        Key("second_moment_m4", "number", "Second moment of area for bending in the arch's plane (not with a "
+            "profile).", "m4", default=None, positive=True),
+        Key("lateral_second_moment_m4", "number", "Second moment of area for bending out of the arch's plane; "
+            "computed from a profile.", "m4", default=None, positive=True),
+        Key("torsion_constant_m4", "number", "St Venant torsion constant J; computed from a profile.", "m4",
             default=None, positive=True),
-        Key("area_m2", "number", "Cross-section area.", "m2", default=None, positive=True),
-        Key("second_moment_m4", "number", "Second moment of area about the bending axis.", "m4",
-            default=None, positive=True),
+        Key("warping_constant_m6", "number", "Warping constant I_w; computed from a profile (zero for closed "
+            "and solid shapes).", "m6", default=None, minimum=0.0),
         Key("springing_depth_m", "number", "Depth at the springings of a tapered rib.", "m",
             default=None, positive=True, when=("variation", ("tapered",))),
-        Key("elastic_modulus_MPa", "number", "Young's modulus of the rib.", "MPa", positive=True),
-        Key("unit_weight_kN_m3", "number", "Weight density of the rib, for self-weight.", "kN/m3",
-            default=0.0, minimum=0.0),
-        Key("thermal_expansion_per_C", "number", "Coefficient of thermal expansion.", "1/degC",
-            default=1.2e-5, minimum=0.0),
-        Key("shear_area_factor", "number", "Shear area As = factor x A.", default=5.0 / 6.0,
-            positive=True, maximum=1.0),
-        Key("poisson_ratio", "number", "Poisson's ratio, for the shear modulus.", default=0.2,
-            minimum=0.0, maximum=0.5),
+        Key("material", Material, "Example material values (E, G or Poisson's ratio, unit weight, thermal "
+            "expansion): steel (E 210 GPa, 78.5 kN/m3), concrete (C30/37: E 33 GPa, 25 kN/m3), glulam (GL24h: "
+            "E 11.5 GPa, G 0.65 GPa, 4.2 kN/m3), masonry (clay brick: E 5 GPa, 20 kN/m3). Examples from the "
+            "usual standards, quoted from memory: take the governing code's values.", default=None),
+        Key("elastic_modulus_MPa", "number", "Young's modulus of the rib; required unless a material gives it.",
+            "MPa", default=None, positive=True),
+        Key("shear_modulus_MPa", "number", "Shear modulus G; default: the material's, else E / (2 (1 + "
+            "poisson_ratio)).", "MPa", default=None, positive=True),
+        Key("unit_weight_kN_m3", "number", "Weight density of the rib, for self-weight; default: the "
+            "material's, else 0.", "kN/m3", default=None, minimum=0.0),
+        Key("thermal_expansion_per_C", "number", "Coefficient of thermal expansion; default: the material's, "
+            "else 1.2e-5.", "1/degC", default=None, minimum=0.0),
+        Key("shear_area_factor", "number", "Shear area As = factor x A; default: the profile's (Cowper's "
+            "coefficient, or the webs' share), else 5/6.", default=None, positive=True, maximum=1.0),
+        Key("poisson_ratio", "number", "Poisson's ratio, for the shear modulus; default: the material's, "
+            "else 0.2.", default=None, minimum=0.0, maximum=0.5),
     ),
 )
 

@@ -11,11 +11,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from formfind.enums import SectionVariation
+from formfind.enums import Material, SectionProfile, SectionVariation
 from formfind.model import schema
 from formfind.model.geometry import Axis
 
 KN_M2_PER_MPA = 1000.0
+
+
+DEFAULT_EXPANSION_PER_C = 1.2e-5  # without a material: the thermal expansion of steel and concrete alike
+DEFAULT_SHEAR_AREA_FACTOR = 5.0 / 6.0  # without a profile: the classic factor of a rectangle
+DEFAULT_POISSON_RATIO = 0.2  # without a material: concrete's
 
 
 @dataclass(frozen=True)
@@ -24,15 +29,23 @@ class Section:
 
     Attributes:
         area_m2: cross-section area A at the crown (m2).
-        second_moment_m4: second moment of area I about the bending axis at the crown (m4).
+        second_moment_m4: second moment of area I for bending in the arch's plane, at the crown (m4).
         depth_m: overall depth of the rib at the crown, measured normal to the axis (m).
         elastic_modulus_kN_m2: Young's modulus E (kN/m2).
         unit_weight_kN_m3: weight density of the rib (kN/m3), for self-weight.
         thermal_expansion_per_C: coefficient of thermal expansion (1/degC).
         variation: how A, I and depth vary along the axis.
         springing_depth_m: depth at the springings for a tapered rectangular rib (m).
-        width_m: breadth of a rectangular rib (m); needed for ``TAPERED``.
+        width_m: breadth of the rib (m); needed for ``TAPERED``.
         shear_area_factor: shear area As = factor * A, for frames with shear deformation.
+        poisson_ratio: for the shear modulus where none is given.
+        profile: the shape the properties were computed from (`formfind.model.profiles`), or None.
+        material: the preset the material values came from, or None.
+        wall_thickness_m, web_thickness_m, flange_thickness_m: the profile's walls (m), or None.
+        lateral_second_moment_m4: I for bending out of the arch's plane (m4), or None if unknown.
+        torsion_constant_m4: St Venant torsion constant J (m4), or None if unknown.
+        warping_constant_m6: warping constant I_w (m6), or None if unknown.
+        shear_modulus_given_kN_m2: G as given (or from the material), None: from E and Poisson's ratio.
     """
 
     area_m2: float
@@ -40,12 +53,21 @@ class Section:
     depth_m: float
     elastic_modulus_kN_m2: float
     unit_weight_kN_m3: float = 0.0
-    thermal_expansion_per_C: float = schema.default(schema.SECTION, "thermal_expansion_per_C")
+    thermal_expansion_per_C: float = DEFAULT_EXPANSION_PER_C
     variation: SectionVariation = schema.default(schema.SECTION, "variation")
     springing_depth_m: float | None = None
     width_m: float | None = None
-    shear_area_factor: float = schema.default(schema.SECTION, "shear_area_factor")
-    poisson_ratio: float = schema.default(schema.SECTION, "poisson_ratio")
+    shear_area_factor: float = DEFAULT_SHEAR_AREA_FACTOR
+    poisson_ratio: float = DEFAULT_POISSON_RATIO
+    profile: SectionProfile | None = None
+    material: Material | None = None
+    wall_thickness_m: float | None = None
+    web_thickness_m: float | None = None
+    flange_thickness_m: float | None = None
+    lateral_second_moment_m4: float | None = None
+    torsion_constant_m4: float | None = None
+    warping_constant_m6: float | None = None
+    shear_modulus_given_kN_m2: float | None = None
 
     def __post_init__(self) -> None:
         for name in ("area_m2", "second_moment_m4", "depth_m", "elastic_modulus_kN_m2"):
@@ -70,7 +92,9 @@ class Section:
 
     @property
     def shear_modulus_kN_m2(self) -> float:
-        """G = E / (2 (1 + nu)) (kN/m2)."""
+        """G (kN/m2): as given (or the material's), else E / (2 (1 + nu))."""
+        if self.shear_modulus_given_kN_m2 is not None:
+            return self.shear_modulus_given_kN_m2
         return self.elastic_modulus_kN_m2 / (2.0 * (1.0 + self.poisson_ratio))
 
     def at(self, axis: Axis) -> SectionAlong:

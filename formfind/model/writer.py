@@ -15,7 +15,7 @@ import math
 from enum import Enum
 from typing import Any
 
-from formfind.enums import LimitState, SectionVariation, ShapeKind
+from formfind.enums import LimitState, ShapeKind
 from formfind.model import schema
 from formfind.model.loads import (
     AxleTrain,
@@ -134,22 +134,7 @@ def case_table(case) -> dict[str, Any]:
     if supports:
         table["supports"] = supports
 
-    r = case.section
-    section: dict[str, Any] = {}
-    _put(section, schema.SECTION, "variation", r.variation)
-    section["depth_m"] = r.depth_m
-    rectangle = r.width_m is not None and math.isclose(r.area_m2, r.width_m * r.depth_m, rel_tol=1e-15) and \
-        math.isclose(r.second_moment_m4, r.width_m * r.depth_m**3 / 12.0, rel_tol=1e-15)
-    if r.width_m is not None:
-        section["width_m"] = r.width_m
-    if not rectangle or r.variation is SectionVariation.TAPERED and r.width_m is None:
-        section["area_m2"] = r.area_m2
-        section["second_moment_m4"] = r.second_moment_m4
-    section["elastic_modulus_MPa"] = _mpa(r.elastic_modulus_kN_m2)
-    for name in ("springing_depth_m", "unit_weight_kN_m3", "thermal_expansion_per_C", "shear_area_factor",
-                 "poisson_ratio"):
-        _put(section, schema.SECTION, name, getattr(r, name))
-    table["section"] = section
+    table["section"] = _section(case.section)
 
     stations: dict[str, Any] = {}
     _put(stations, schema.STATIONS, "count", case.stations.count)
@@ -219,6 +204,66 @@ def case_table(case) -> dict[str, Any]:
     if combinations:
         table["combinations"] = combinations
     return table
+
+
+def _differs(value: float | None, expected: float | None) -> bool:
+    if value is None or expected is None:
+        return value is not expected
+    return not math.isclose(value, expected, rel_tol=1e-15, abs_tol=0.0)
+
+
+def _section(r) -> dict[str, Any]:
+    """The [section] table: a profile by its dimensions (computed properties left out unless overridden),
+    or A and I as typed; material values only where they differ from the preset's."""
+    from formfind.model.profiles import MATERIALS, properties
+    from formfind.model.section import DEFAULT_EXPANSION_PER_C, DEFAULT_POISSON_RATIO, DEFAULT_SHEAR_AREA_FACTOR
+
+    out: dict[str, Any] = {}
+    _put(out, schema.SECTION, "variation", r.variation)
+    if r.profile is not None:
+        out["profile"] = r.profile.value
+    out["depth_m"] = r.depth_m
+    for name in ("width_m", "wall_thickness_m", "web_thickness_m", "flange_thickness_m", "springing_depth_m"):
+        if getattr(r, name) is not None:
+            out[name] = getattr(r, name)
+    computed = None
+    if r.profile is not None:
+        computed = properties(r.profile, r.depth_m, r.width_m, r.wall_thickness_m, r.web_thickness_m,
+                              r.flange_thickness_m, r.poisson_ratio)
+        factor = computed.shear_area_factor
+    else:
+        rectangle = r.width_m is not None and math.isclose(r.area_m2, r.width_m * r.depth_m, rel_tol=1e-15) and \
+            math.isclose(r.second_moment_m4, r.width_m * r.depth_m**3 / 12.0, rel_tol=1e-15)
+        if rectangle:
+            from formfind.enums import SectionProfile
+
+            computed = properties(SectionProfile.RECTANGLE, r.depth_m, r.width_m)
+            computed = type(computed)(computed.area_m2, computed.second_moment_m4, computed.lateral_second_moment_m4,
+                                      computed.torsion_constant_m4, 0.0, computed.shear_area_factor)
+        else:
+            out["area_m2"] = r.area_m2
+            out["second_moment_m4"] = r.second_moment_m4
+        factor = DEFAULT_SHEAR_AREA_FACTOR
+    for name in ("lateral_second_moment_m4", "torsion_constant_m4", "warping_constant_m6"):
+        expected = None if computed is None else getattr(computed, name)
+        if _differs(getattr(r, name), expected):
+            out[name] = getattr(r, name)
+    if _differs(r.shear_area_factor, factor):
+        out["shear_area_factor"] = r.shear_area_factor
+    preset = MATERIALS.get(r.material) if r.material is not None else None
+    if r.material is not None:
+        out["material"] = r.material.value
+    shear = None if r.shear_modulus_given_kN_m2 is None else _mpa(r.shear_modulus_given_kN_m2)
+    for name, value, expected in (
+            ("elastic_modulus_MPa", _mpa(r.elastic_modulus_kN_m2), preset.elastic_modulus_MPa if preset else None),
+            ("shear_modulus_MPa", shear, preset.shear_modulus_MPa if preset else None),
+            ("poisson_ratio", r.poisson_ratio, preset.poisson_ratio if preset else DEFAULT_POISSON_RATIO),
+            ("unit_weight_kN_m3", r.unit_weight_kN_m3, preset.unit_weight_kN_m3 if preset else 0.0),
+            ("thermal_expansion_per_C", r.thermal_expansion_per_C,
+             preset.thermal_expansion_per_C if preset else DEFAULT_EXPANSION_PER_C)):
+        if value is not None and _differs(value, expected):
+            out[name] = value
+    return out
 
 
 def _find(case) -> dict[str, Any]:

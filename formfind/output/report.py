@@ -222,12 +222,26 @@ def _inputs(case: Case, analysis: CaseAnalysis | None) -> tuple:
         ["rib depth (crown)", _len(sec.depth_m), "m"], ["rib area (crown)", _num(sec.area_m2, 5), "m2"],
         ["second moment of area (crown)", _num(sec.second_moment_m4, 5), "m4"],
         ["elastic modulus", _num(sec.elastic_modulus_kN_m2 / 1000.0, 5), "MPa"],
+        ["shear modulus", _num(sec.shear_modulus_kN_m2 / 1000.0, 5), "MPa"],
         ["unit weight", _num(sec.unit_weight_kN_m3, 4), "kN/m3"], ["section variation", sec.variation.value, ""],
         ["stations", str(analysis.axis.count if analysis else case.stations.count), ""],
         ["load cases", ", ".join(f"{c.name} ({c.action.value})" for c in case.cases), ""],
         ["combinations", "; ".join(f"{c.name}: " + ", ".join(f"{f:g} x {n}" for n, f in c.factors)
                                   for c in case.combinations) or "none", ""],
     ]
+    if sec.profile is not None:
+        walls = ", ".join(f"{name.replace('_m', '').replace('_', ' ')} {_len(getattr(sec, name)).text} m"
+                          for name in ("width_m", "wall_thickness_m", "web_thickness_m", "flange_thickness_m")
+                          if getattr(sec, name) is not None)
+        rows.insert(4, ["rib profile (properties computed)", f"{sec.profile.value.replace('_', ' ')}"
+                        + (f": {walls}" if walls else ""), ""])
+    if sec.lateral_second_moment_m4 is not None:
+        at = rows.index(next(r for r in rows if r[0] == "elastic modulus"))
+        rows.insert(at, ["second moment of area out of the plane", _num(sec.lateral_second_moment_m4, 5), "m4"])
+        if sec.torsion_constant_m4 is not None:
+            rows.insert(at + 1, ["torsion constant", _num(sec.torsion_constant_m4, 5), "m4"])
+    if sec.material is not None:
+        rows.insert(4, ["material preset (example values; explicit keys win)", sec.material.value, ""])
     if s.hinge_x_m is not None:
         rows.insert(4, ["crown hinge at", _len(s.hinge_x_m), "m"])
     blocks = [_plain_table(["input", "value", "unit"], rows, widths=(2.2, 3, 0.6)),
