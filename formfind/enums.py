@@ -61,6 +61,13 @@ class Material(StrEnum):
     MASONRY = "masonry"
 
 
+class LateralSupport(StrEnum):
+    """How the springings hold the rib out of its plane."""
+
+    FORK = "fork"  # no sideways movement, no twist; free to turn in plan and about the in-plane normal
+    FIXED = "fixed"  # all three out-of-plane freedoms held
+
+
 class ActionKind(StrEnum):
     """The nature of a load case, used by combinations and checks."""
 

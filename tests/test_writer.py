@@ -84,6 +84,12 @@ deflection_limit_ratio = 400.0
 second_order = "amplification"
 patterned_load_kN_m = 5.0
 patterned_factors = { ULS = 1.5 }
+[lateral]
+springings = "fixed"
+brace_x_m = [10.0, 20.0, 30.0]
+brace_stiffness_kN_m = 500.0
+deck_level_m = -1.0
+min_factor = 2.5
 [long_term]
 creep_coefficient = 2.2
 ageing_coefficient = 0.75

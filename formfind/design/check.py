@@ -36,6 +36,7 @@ from formfind.analysis import statics
 from formfind.analysis.deflection import Deflections, deflections
 from formfind.analysis.engine import CaseAnalysis
 from formfind.analysis.frame import influence_lines, unit_loads
+from formfind.analysis.lateral import properties_known, state_lateral
 from formfind.analysis.long_term import LongTerm, long_term
 from formfind.analysis.response import EFFECTS, Response
 from formfind.analysis.stability import design_moments
@@ -151,6 +152,7 @@ class CheckResult:
             serviceability ones are judged by their deflection).
         long_term: the permanent load after creep and shrinkage (`formfind.analysis.long_term`), or None.
         crowd: a footbridge's resonant crowd response (`formfind.design.footfall`), or None.
+        lateral: out-of-plane buckling of each strength combination (`formfind.analysis.lateral`).
     """
 
     rows: tuple[CheckRow, ...]
@@ -167,6 +169,7 @@ class CheckResult:
     strength_states: tuple[str, ...] = ()
     long_term: LongTerm | None = None
     crowd: CrowdResponse | None = None
+    lateral: tuple = ()
 
     @property
     def passed(self) -> bool:
@@ -297,6 +300,10 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
         rows.append(CheckRow("in-plane buckling factor", float(a) if np.isfinite(a) else float("inf"),
                              settings.min_buckling_factor, "-", util, group, group, None, None,
                              PASS if a >= settings.min_buckling_factor else FAIL, so))
+    sideways: tuple = ()
+    if case.lateral.check and not settings.unreinforced and properties_known(case.section) and response.count:
+        sideways = _lateral(case, analysis, response, all_loads.select(strength))
+        rows += _lateral_rows(sideways, case)
     for group in dict.fromkeys(response.groups):
         idx = [k for k, g in enumerate(response.groups) if g == group]
         thrust = response.thrust[idx]
@@ -333,7 +340,45 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
     ratio = np.divide(np.abs(M).max(axis=1) if response.count else np.zeros(0), first, out=np.ones_like(first),
                       where=first > 0)
     return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse,
-                       tuple(design.imperfections.values()), moved, response.names, lasting, crowd)
+                       tuple(design.imperfections.values()), moved, response.names, lasting, crowd, sideways)
+
+
+def _lateral(case: Case, analysis: CaseAnalysis, response: Response, loads) -> tuple:
+    """Out-of-plane buckling of each combination, for the state its in-plane buckling took as reference
+    (its largest thrust)."""
+    reference = {b.group: b.state for b in analysis.buckling}
+    out = []
+    for group in dict.fromkeys(response.groups):
+        idx = [k for k, g in enumerate(response.groups) if g == group]
+        named = reference.get(group)
+        k = response.names.index(named) if named in response.names else idx[int(np.argmax(response.thrust[idx]))]
+        out.append(state_lateral(case, analysis, response, loads, k))
+    return tuple(out)
+
+
+def _lateral_rows(results: tuple, case: Case) -> list[CheckRow]:
+    least = case.lateral.min_factor if case.lateral.min_factor is not None else case.check.min_buckling_factor
+    rows = []
+    for b in results:
+        a = b.critical_factor
+        if not np.isfinite(a):
+            rows.append(CheckRow("out-of-plane buckling factor", float("inf"), least, "-", None, b.group, b.state, None,
+                                 None, PASS, "no compression to buckle under: no factor, no utilisation"))
+            continue
+        symmetric = _lateral_symmetry(b.modes[0][:, 0])
+        rows.append(CheckRow("out-of-plane buckling factor", a, least, "-", least / a, b.group, b.state, None, None,
+                             PASS if a >= least else FAIL,
+                             f"lateral bending and twist of the rib ({symmetric} mode); {b.restraint}; linear, "
+                             "warping stiffness left out"))
+    return rows
+
+
+def _lateral_symmetry(w: np.ndarray) -> str:
+    norm = float(np.dot(w, w))
+    if norm == 0.0:
+        return "twisting"
+    corr = float(np.dot(w, w[::-1])) / norm
+    return "symmetric" if corr > 0.9 else "antisymmetric" if corr < -0.9 else "unsymmetric"
 
 
 def _group_method(response: Response, method: tuple[str, ...], group: str) -> str:

@@ -97,6 +97,7 @@ analysis = _builder(schema.ANALYSIS, "analysis", "analysis")
 find = _builder(schema.FIND, "find", "find")
 check = _builder(schema.CHECK, "check", "check")
 long_term = _builder(schema.LONG_TERM, "long_term", "long_term")
+lateral = _builder(schema.LATERAL, "lateral", "lateral")
 study = _builder(schema.STUDY, "study", "study")
 outputs = _builder(schema.OUTPUTS, "outputs", "outputs")
 point = _builder(schema.LOAD_TYPES["point"], None, "point", "point")
@@ -129,7 +130,8 @@ def combination(name: str, factors: Mapping[str, float], limit_state: str | None
 
 def case(name: str, *, geometry: dict, section: dict, cases: Iterable[dict], supports: dict | None = None,
          combinations: Iterable[dict] = (), stations: dict | None = None, analysis: dict | None = None,
-         find: dict | None = None, check: dict | None = None, long_term: dict | None = None,
+         find: dict | None = None, check: dict | None = None, lateral: dict | None = None,
+         long_term: dict | None = None,
          study: dict | None = None, outputs: dict | None = None, **about: Any):
     """The validated `Case` of these tables (``about``: the [case] table's other keys, such as
     ``title``, ``project``, ``issue_date``).
@@ -142,7 +144,7 @@ def case(name: str, *, geometry: dict, section: dict, cases: Iterable[dict], sup
     table: dict[str, Any] = {"case": _table(schema.CASE, "case", {"name": name, **about})}
     for header, part in (("geometry", geometry), ("supports", supports), ("section", section),
                          ("stations", stations), ("analysis", analysis), ("find", find), ("check", check),
-                         ("long_term", long_term), ("study", study), ("outputs", outputs)):
+                         ("lateral", lateral), ("long_term", long_term), ("study", study), ("outputs", outputs)):
         if part is not None:
             table[header] = dict(part)
     table["cases"] = [dict(c) for c in cases]

@@ -28,6 +28,7 @@ from formfind.enums import (
     DxfVersion,
     EccentricityLimit,
     FillReference,
+    LateralSupport,
     LimitState,
     LoadDirection,
     Objective,
@@ -196,6 +197,18 @@ class LongTermSettings:
 
 
 @dataclass(frozen=True)
+class LateralSettings:
+    """Out-of-plane restraints and limit (see `formfind.model.schema.LATERAL`); lengths in m, kN/m."""
+
+    check: bool = schema.default(schema.LATERAL, "check")
+    springings: LateralSupport = schema.default(schema.LATERAL, "springings")
+    brace_x_m: tuple[float, ...] = ()
+    brace_stiffness_kN_m: float | None = None
+    deck_level_m: float | None = None
+    min_factor: float | None = None
+
+
+@dataclass(frozen=True)
 class StudySettings:
     """A trade study's ranges (see `formfind.model.schema.STUDY`); empty: the case's own value."""
 
@@ -278,6 +291,7 @@ class Case:
     check: CheckSettings = CheckSettings()
     study: StudySettings = StudySettings()
     long_term: LongTermSettings = LongTermSettings()
+    lateral: LateralSettings = LateralSettings()
     source: str = ""
     defaults_used: tuple[str, ...] = ()
     document: Document = Document()
@@ -463,6 +477,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
     check_raw = section(schema.CHECK, required=False)
     study_raw = section(schema.STUDY, required=False)
     long_term_raw = section(schema.LONG_TERM, required=False)
+    lateral_raw = section(schema.LATERAL, required=False)
     cases = _cases(data.get("cases"), geometry, file)
     combinations = _combinations(data.get("combinations"), cases, file)
     _limits(cases, combinations, geometry, file)
@@ -506,11 +521,22 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
         ),
         study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),
         long_term=LongTermSettings(**long_term_raw),
+        lateral=_lateral(lateral_raw, geometry, file),
         source=file,
         defaults_used=tuple(defaults),
         document=Document(meta["project"], meta["job_number"], meta["revision"], meta["drawn_by"],
                           meta["checked_by"], meta["issue_date"] or ""),
     )
+
+
+def _lateral(raw: dict[str, Any], geometry: Geometry, file: str) -> LateralSettings:
+    braces = tuple(raw["brace_x_m"] or ())
+    for i, x in enumerate(braces):
+        _within(x, geometry.span_m, file, f"lateral.brace_x_m[{i}]")
+    if raw["brace_stiffness_kN_m"] is not None and not braces:
+        raise CaseError(file, "lateral.brace_stiffness_kN_m", "applies only with brace_x_m (where the braces are)")
+    return LateralSettings(raw["check"], raw["springings"], braces, raw["brace_stiffness_kN_m"], raw["deck_level_m"],
+                           raw["min_factor"])
 
 
 def _geometry(g: dict[str, Any], file: str) -> Geometry:

@@ -21,6 +21,7 @@ from formfind.enums import (
     DxfVersion,
     EccentricityLimit,
     FillReference,
+    LateralSupport,
     LimitState,
     LoadDirection,
     Material,
@@ -418,6 +419,28 @@ CHECK = Table(
     ),
 )
 
+LATERAL = Table(
+    "lateral",
+    "Out-of-plane buckling of the rib (lateral bending and twist): what holds it out of its plane. Checked "
+    "for every ultimate and accidental combination where the rib's out-of-plane properties are known (a "
+    "profile, a rectangle, or lateral_second_moment_m4 and torsion_constant_m4), unreinforced rings aside.",
+    (
+        Key("check", "boolean", "Check out-of-plane buckling (false: leave it to the designer's own model).",
+            default=True),
+        Key("springings", LateralSupport, "fork: the springings hold the rib sideways and against twist, free "
+            "to turn in plan; fixed: they also hold those rotations.", default=LateralSupport.FORK.value),
+        Key("brace_x_m", "numbers", "Abscissae of lateral braces (bracing to a deck, a roof plate or a twin "
+            "rib); a brace holds the rib's axis sideways, not its twist.", "m", default=None),
+        Key("brace_stiffness_kN_m", "number", "Lateral stiffness of each brace; not given: rigid braces.",
+            "kN/m", default=None, positive=True),
+        Key("deck_level_m", "number", "Level of a laterally held deck hung from the rib: every downward point "
+            "load is taken as a hanger from the deck, which pulls the rib back as it sways (tension / hanger "
+            "length). Not given: no hangers.", "m", default=None),
+        Key("min_factor", "number", "Least out-of-plane buckling factor of every combination; default: "
+            "[check] min_buckling_factor.", default=None, positive=True),
+    ),
+)
+
 LONG_TERM = Table(
     "long_term",
     "Creep and shrinkage of a concrete rib: the long-term state of the permanent load. Coefficients are the "
@@ -567,7 +590,8 @@ LOAD_TYPES: dict[str, Table] = {
     ),
 }
 
-TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, LONG_TERM, STUDY,
+TOP_TABLES: tuple[Table, ...] = (CASE, GEOMETRY, SUPPORTS, SECTION, STATIONS, ANALYSIS, FIND, CHECK, LATERAL,
+                                 LONG_TERM, STUDY,
                                  OUTPUTS,
                                  CASES, COMBINATIONS)
 

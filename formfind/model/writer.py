@@ -166,6 +166,18 @@ def case_table(case) -> dict[str, Any]:
     if check:
         table["check"] = check
 
+    lateral: dict[str, Any] = {}
+    lat = case.lateral
+    for key in schema.LATERAL.keys:
+        value = getattr(lat, key.name)
+        if key.name == "brace_x_m":
+            if value:
+                lateral[key.name] = list(value)
+            continue
+        _put(lateral, schema.LATERAL, key.name, value)
+    if lateral:
+        table["lateral"] = lateral
+
     long_term: dict[str, Any] = {}
     for key in schema.LONG_TERM.keys:
         _put(long_term, schema.LONG_TERM, key.name, getattr(case.long_term, key.name))

@@ -142,6 +142,16 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
                                "amplitude of a linear mode is arbitrary.",
                                plots.plot_buckling_mode(axis, critical.modes[0], critical.critical_factor,
                                                         critical.symmetry[0], critical.group)))
+    if checks is not None and checks.lateral:
+        buckled = [b for b in checks.lateral if b.factors.size]
+        if buckled:
+            worst = min(buckled, key=lambda b: b.critical_factor)
+            out.append(Diagram("fig-lateral-mode", f"Out-of-plane buckling of {worst.group} (load factor "
+                               f"{numbers.for_reading(worst.critical_factor, 3)}): the sideways movement of the rib's "
+                               f"axis and faces along the span, in plan (twist shows as the faces parting); "
+                               f"{worst.restraint}. The amplitude of a linear mode is arbitrary.",
+                               plots.plot_lateral_mode(axis, worst.modes[0], worst.critical_factor, worst.group,
+                                                       analysis.section.depth_m, case.lateral.brace_x_m)))
     if analysis.modes is not None:
         m = analysis.modes
         for j in range(min(2, m.frequency_hz.size)):

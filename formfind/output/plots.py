@@ -308,6 +308,32 @@ def plot_buckling_mode(axis: Axis, mode: np.ndarray, factor: float, symmetry: st
     return ax
 
 
+def plot_lateral_mode(axis: Axis, mode: np.ndarray, factor: float, group: str, depth_m: np.ndarray, braces=(),
+                      ax=None):
+    """An out-of-plane buckling mode in plan: the sideways movement along x of the rib's axis and of its
+    extrados and intrados faces (the axis's movement -+ twist x half the depth), scaled so that the largest
+    is 1 (a shape: the amplitude of a linear mode is arbitrary); lateral braces marked."""
+    ax = ax or new_axes()
+    w, twist = mode[:, 0], mode[:, 1]
+    top, bottom = w + twist * 0.5 * depth_m, w - twist * 0.5 * depth_m
+    scale = max(float(np.abs(np.concatenate([w, top, bottom])).max()), 1e-300)
+    ax.axhline(0.0, color="#999999", lw=1.0)
+    ax.plot(axis.x, top / scale, lw=1.0, ls="--", color=PALETTE[3], label="extrados face")
+    ax.plot(axis.x, bottom / scale, lw=1.0, ls=":", color=PALETTE[2], label="intrados face")
+    ax.plot(axis.x, w / scale, lw=1.6, color=PALETTE[1], label="axis")
+    for x in braces:
+        ax.plot([x], [0.0], marker="s", color="#6a3d9a", ms=5, ls="none")
+    if braces:
+        ax.plot([], [], marker="s", color="#6a3d9a", ls="none", label="lateral braces")
+    ax.set_ylim(-1.15, 1.15)
+    ax.set_xlim(axis.x[0], axis.x[-1])
+    ax.set_xlabel("x (m)", fontsize=9)
+    ax.set_ylabel("sideways movement (scaled)", fontsize=9)
+    ax.set_title(f"Out-of-plane buckling of {group}: load factor {factor:.3g} (mode in plan, scaled)", fontsize=10)
+    _legend_below(ax, ncol=4)
+    return ax
+
+
 def plot_mode(axis: Axis, shape: np.ndarray, number: int, frequency_hz: float, symmetry: str, direction: str,
               ax=None):
     """One natural mode shape (stations, 3) over the axis, its largest displacement drawn at a twentieth
