@@ -6,6 +6,7 @@ from __future__ import annotations
 import json
 import os
 import tomllib
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -392,3 +393,23 @@ def test_a_full_disk_leaves_no_folder_behind(tmp_path, monkeypatch):
     with pytest.raises(OutputError, match="disk is full"):
         write_package(tmp_path / "new" / "deeper" / "case", {"a.txt": b"1"}, overwrite=False)
     assert list(tmp_path.iterdir()) == []
+
+
+def test_form_finding_works_after_another_highs_user_in_the_same_process():
+    """HiGHS keeps one thread scheduler per process: a program that asked it for another thread count than
+    the first user (cvxpy's HiGHS interface, which the thrust-line checks use) failed every later solve.
+    A fresh process: cvxpy solves with HiGHS first, then form finding's own HiGHS programs must solve."""
+    import subprocess
+    import sys
+
+    script = (
+        "import cvxpy as cp, formfind\n"
+        "x = cp.Variable(2)\n"
+        "cp.Problem(cp.Minimize(cp.sum(x)), [x >= 1]).solve(solver=cp.HIGHS)\n"
+        "shape = formfind.find_shape(formfind.load_case('cases/road-bridge.toml'))\n"
+        "print(shape.status)\n"
+    )
+    root = Path(__file__).resolve().parents[1]
+    result = subprocess.run([sys.executable, "-c", script], cwd=root, capture_output=True, text=True, timeout=300)
+    assert result.returncode == 0, result.stderr[-2000:]
+    assert result.stdout.strip().splitlines()[-1] == "optimal"

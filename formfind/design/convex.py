@@ -135,7 +135,9 @@ def _highs(problem: ConvexProblem, warm_basis: object | None) -> ConvexSolution:
     with silent_stdout():
         h = highspy.Highs()
         h.setOptionValue("output_flag", False)
-        h.setOptionValue("threads", 1)
+        # no "threads" option: HiGHS keeps one scheduler per process, and asking a number other than the
+        # one it was started with (by another HiGHS user, cvxpy's thrust-line programs among them) makes
+        # every later run fail; the simplex runs serially whatever the option says
         if problem.P is None:
             h.passModel(lp)
         else:
