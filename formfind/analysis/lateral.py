@@ -5,8 +5,8 @@ of the arch's plane at each node: the lateral displacement w (along global Z, ou
 the rotations about global X and Y. In each element's axes (x along the chord, y the in-plane normal,
 z = Z) they are w, the twist phi (about x) and the lateral bending rotation psi (about y, psi = -dw/dx).
 Elastic stiffness: lateral bending E I_lat with the cubic (Hermite) shapes, St Venant torsion G J with
-linear shapes; warping stiffness is left out (conservative for open sections; closed and solid ribs
-have none to speak of). The arch's curvature couples twist and lateral bending through the turn of the
+linear shapes; where the section has a warping constant (an I-section), warping stiffness E I_w too, the
+twist then cubic with its rate as a fourth freedom (free at a fork, held at a fixed springing). The arch's curvature couples twist and lateral bending through the turn of the
 element axes from one element to the next.
 
 Geometric stiffness of a load state (the factor lambda multiplies all of it):
@@ -38,14 +38,16 @@ import scipy.sparse as sp
 from formfind.errors import AnalysisError
 from formfind.model.geometry import Axis
 
-GAUSS_T = np.array([0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)])  # two-point rule on [0, 1]
+GAUSS_T = 0.5 + 0.5 * np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])  # three-point rule on [0, 1]
+GAUSS_W = np.array([5.0, 8.0, 5.0]) / 18.0
 
 
 @dataclass(frozen=True)
 class LateralRestraints:
     """What holds the rib out of its plane.
 
-    ``springings``: "fork" or "fixed". ``brace_x_m``: abscissae of lateral braces (m) with
+    ``springings``: "fork" or "fixed"; ``plan_stiffness_kNm_rad``: an elastic fork, a rotational spring
+    against the rib's turn in plan at each springing (None: free). ``brace_x_m``: abscissae of lateral braces (m) with
     ``brace_stiffness_kN_m`` each (None: rigid). ``hanger_force_kN``: the tension of a hanger at each
     station (kN, per unit load factor; zeros: none) and ``hanger_length_m`` its length to the laterally held
     deck (m; stations without a hanger ignored).
@@ -53,6 +55,7 @@ class LateralRestraints:
 
     springings: str = "fork"
     brace_x_m: tuple[float, ...] = ()
+    plan_stiffness_kNm_rad: float | None = None
     brace_stiffness_kN_m: float | None = None
     hanger_force_kN: np.ndarray | None = None
     hanger_length_m: np.ndarray | None = None
@@ -83,102 +86,134 @@ class LateralBuckling:
 
 
 def _element_matrices(length: np.ndarray, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray,
-                      r0_sq: np.ndarray, moment_i: np.ndarray, moment_j: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Local elastic and geometric stiffness (elements, 6, 6) on (w1, phi1, psi1, w2, phi2, psi2)."""
+                      r0_sq: np.ndarray, moment_i: np.ndarray, moment_j: np.ndarray,
+                      EIw: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Local elastic and geometric stiffness (elements, 2m, 2m) on (w, phi, psi[, beta]) at each end, m = 3,
+    or 4 with warping (``EIw``): beta = dphi/dx, the twist then cubic (Hermite) instead of linear."""
     L = length
     ne = L.size
-    ke = np.zeros((ne, 6, 6))
-    kg = np.zeros((ne, 6, 6))
-    bend = [0, 2, 3, 5]  # w1, psi1, w2, psi2
-    twist = [1, 4]
-    # lateral bending with psi = -dw/dx
+    m = 3 if EIw is None else 4
+    ke = np.zeros((ne, 2 * m, 2 * m))
+    kg = np.zeros((ne, 2 * m, 2 * m))
+    bend = [0, 2, m, m + 2]  # w1, psi1, w2, psi2 (psi = -dw/dx)
     kb = np.array([[12.0, -6.0, -12.0, -6.0], [-6.0, 4.0, 6.0, 2.0], [-12.0, 6.0, 12.0, 6.0], [-6.0, 2.0, 6.0, 4.0]])
+    gb = np.array([[36.0, -3.0, -36.0, -3.0], [-3.0, 4.0, 3.0, -1.0], [-36.0, 3.0, 36.0, 3.0], [-3.0, -1.0, 3.0, 4.0]])
     lpow = np.array([[0, 1, 0, 1], [1, 2, 1, 2], [0, 1, 0, 1], [1, 2, 1, 2]])
     for a in range(4):
         for b in range(4):
             ke[:, bend[a], bend[b]] = EI_lat / L**3 * kb[a, b] * L ** lpow[a, b]
-    gb = np.array([[36.0, -3.0, -36.0, -3.0], [-3.0, 4.0, 3.0, -1.0], [-36.0, 3.0, 36.0, 3.0], [-3.0, -1.0, 3.0, 4.0]])
-    for a in range(4):
-        for b in range(4):
             kg[:, bend[a], bend[b]] = axial / (30.0 * L) * gb[a, b] * L ** lpow[a, b]
-    for a, sa in ((0, 1.0), (1, -1.0)):
-        for b, sb in ((0, 1.0), (1, -1.0)):
-            ke[:, twist[a], twist[b]] = sa * sb * GJ / L
-            kg[:, twist[a], twist[b]] = sa * sb * axial * r0_sq / L
-    # integral of M phi w'' dx: w'' of the Hermite shapes (psi = -w'), phi linear, M linear
-    for t in GAUSS_T:
-        weight = 0.5 * L
-        m = (1.0 - t) * moment_i + t * moment_j
-        d2 = np.stack([(-6.0 + 12.0 * t) / L**2, -(-4.0 + 6.0 * t) / L, (6.0 - 12.0 * t) / L**2,
-                       -(-2.0 + 6.0 * t) / L], axis=-1)  # (elements, 4) on (w1, psi1, w2, psi2)
-        phi = np.array([1.0 - t, t])
+    if EIw is None:  # linear twist
+        twist = [1, m + 1]
+        for a, sa in ((0, 1.0), (1, -1.0)):
+            for b, sb in ((0, 1.0), (1, -1.0)):
+                ke[:, twist[a], twist[b]] = sa * sb * GJ / L
+                kg[:, twist[a], twist[b]] = sa * sb * axial * r0_sq / L
+    else:  # cubic twist with its rate beta = +dphi/dx: the patterns of a beam with theta = +v'
+        twist = [1, 3, m + 1, m + 3]
+        gt = np.array([[36.0, 3.0, -36.0, 3.0], [3.0, 4.0, -3.0, -1.0], [-36.0, -3.0, 36.0, -3.0], [3.0, -1.0, -3.0, 4.0]])
+        kt = np.array([[12.0, 6.0, -12.0, 6.0], [6.0, 4.0, -6.0, 2.0], [-12.0, -6.0, 12.0, -6.0], [6.0, 2.0, -6.0, 4.0]])
         for a in range(4):
-            for b in range(2):
-                value = weight * m * d2[:, a] * phi[b]
+            for b in range(4):
+                ke[:, twist[a], twist[b]] = (GJ / (30.0 * L) * gt[a, b] + EIw / L**3 * kt[a, b]) * L ** lpow[a, b]
+                kg[:, twist[a], twist[b]] = axial * r0_sq / (30.0 * L) * gt[a, b] * L ** lpow[a, b]
+    # integral of M phi w'' dx: w'' of the Hermite shapes, phi linear or Hermite, M linear (3-point Gauss:
+    # exact for these polynomials of degree 5 at most)
+    for t, weight in zip(GAUSS_T, GAUSS_W, strict=True):
+        mom = (1.0 - t) * moment_i + t * moment_j
+        d2 = np.stack([(-6.0 + 12.0 * t) / L**2, (4.0 - 6.0 * t) / L, (6.0 - 12.0 * t) / L**2,
+                       (2.0 - 6.0 * t) / L], axis=-1)  # (elements, 4) on (w1, psi1, w2, psi2)
+        if EIw is None:
+            phi = np.stack([np.full(ne, 1.0 - t), np.full(ne, t)], axis=-1)
+        else:
+            phi = np.stack([np.full(ne, 1 - 3 * t**2 + 2 * t**3), (t - 2 * t**2 + t**3) * L,
+                            np.full(ne, 3 * t**2 - 2 * t**3), (-(t**2) + t**3) * L], axis=-1)
+        for a in range(4):
+            for b in range(len(twist)):
+                value = weight * L * mom * d2[:, a] * phi[:, b]
                 kg[:, bend[a], twist[b]] += value
                 kg[:, twist[b], bend[a]] += value
     return ke, kg
 
 
-def _transform(cos: np.ndarray, sin: np.ndarray) -> np.ndarray:
-    """(elements, 6, 6): local (w, phi, psi) per node from global (w, theta_X, theta_Y)."""
+def _transform(cos: np.ndarray, sin: np.ndarray, m: int = 3) -> np.ndarray:
+    """(elements, 2m, 2m): local (w, phi, psi[, beta]) per node from global (w, theta_X, theta_Y[, beta])."""
     ne = cos.size
-    t = np.zeros((ne, 6, 6))
-    for base in (0, 3):
+    t = np.zeros((ne, 2 * m, 2 * m))
+    for base in (0, m):
         t[:, base, base] = 1.0
         t[:, base + 1, base + 1] = cos  # phi = c theta_X + s theta_Y
         t[:, base + 1, base + 2] = sin
         t[:, base + 2, base + 1] = -sin  # psi = -s theta_X + c theta_Y
         t[:, base + 2, base + 2] = cos
+        if m == 4:
+            t[:, base + 3, base + 3] = 1.0  # the rate of twist is a scalar along the rib
     return t
 
 
 def assemble(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_sq: np.ndarray,
-             moment: np.ndarray, restraints: LateralRestraints) -> tuple[sp.csr_matrix, sp.csr_matrix, np.ndarray]:
-    """Global K, K_G (3 per station: w, theta_X, theta_Y) and the free dofs. ``EI_lat``, ``GJ``, ``r0_sq``
-    and ``axial`` per element; ``moment`` the in-plane M at the stations (kNm)."""
+             moment: np.ndarray, restraints: LateralRestraints,
+             EIw: np.ndarray | None = None) -> tuple[sp.csr_matrix, sp.csr_matrix, np.ndarray]:
+    """Global K, K_G (per station: w, theta_X, theta_Y, and the rate of twist with warping ``EIw``) and the
+    free dofs. ``EI_lat``, ``GJ``, ``r0_sq``, ``axial`` and ``EIw`` per element; ``moment`` the in-plane M
+    at the stations (kNm)."""
     n = axis.count
+    m = 3 if EIw is None else 4
     dx, dy = np.diff(axis.x), np.diff(axis.y)
     length = np.hypot(dx, dy)
     cos, sin = dx / length, dy / length
-    ke, kg = _element_matrices(length, EI_lat, GJ, axial, r0_sq, moment[:-1], moment[1:])
-    t = _transform(cos, sin)
+    ke, kg = _element_matrices(length, EI_lat, GJ, axial, r0_sq, moment[:-1], moment[1:], EIw)
+    t = _transform(cos, sin, m)
     ke = np.matmul(np.matmul(t.transpose(0, 2, 1), ke), t)
     kg = np.matmul(np.matmul(t.transpose(0, 2, 1), kg), t)
-    dofs = np.concatenate([3 * np.arange(n - 1)[:, None] + np.arange(3), 3 * np.arange(1, n)[:, None] + np.arange(3)],
+    dofs = np.concatenate([m * np.arange(n - 1)[:, None] + np.arange(m), m * np.arange(1, n)[:, None] + np.arange(m)],
                           axis=1)
-    rows = np.repeat(dofs, 6, axis=1).ravel()
-    cols = np.tile(dofs, (1, 6)).ravel()
-    size = 3 * n
+    rows = np.repeat(dofs, 2 * m, axis=1).ravel()
+    cols = np.tile(dofs, (1, 2 * m)).ravel()
+    size = m * n
     K = sp.coo_matrix((ke.ravel(), (rows, cols)), shape=(size, size)).tocsr()
     KG = sp.coo_matrix((kg.ravel(), (rows, cols)), shape=(size, size)).tocsr()
     held: set[int] = set()
     for end in (0, n - 1):
-        held.add(3 * end)  # w; a fork's twist is held by `solve` (a change of basis)
+        held.add(m * end)  # w; a fork's twist is held by `solve` (a change of basis), its warping is free
         if restraints.springings == "fixed":
-            held.update((3 * end + 1, 3 * end + 2))
+            held.update(m * end + j for j in range(1, m))
     springs = np.zeros(size)
     for x in restraints.brace_x_m:
         i = int(np.argmin(np.abs(axis.x - x)))
         if restraints.brace_stiffness_kN_m is None:
-            held.add(3 * i)
+            held.add(m * i)
         else:
-            springs[3 * i] += restraints.brace_stiffness_kN_m
+            springs[m * i] += restraints.brace_stiffness_kN_m
     K = K + sp.diags(springs)
+    if restraints.springings == "fork" and restraints.plan_stiffness_kNm_rad:  # an elastic fork
+        k = restraints.plan_stiffness_kNm_rad
+        spring_rows, spring_cols, spring_vals = [], [], []
+        for end, (c, s) in ((0, (cos[0], sin[0])), (n - 1, (cos[-1], sin[-1]))):
+            normal = np.array([-s, c])  # the turn in plan: rotation about the in-plane normal
+            idx = [m * end + 1, m * end + 2]
+            for a in range(2):
+                for b in range(2):
+                    spring_rows.append(idx[a])
+                    spring_cols.append(idx[b])
+                    spring_vals.append(k * normal[a] * normal[b])
+        K = K + sp.coo_matrix((spring_vals, (spring_rows, spring_cols)), shape=(size, size)).tocsr()
     if restraints.hanger_force_kN is not None and restraints.hanger_length_m is not None:
         force, hang = np.asarray(restraints.hanger_force_kN), np.asarray(restraints.hanger_length_m)
         with np.errstate(divide="ignore", invalid="ignore"):
             k_hanger = np.where((force > 0) & (hang > 0), force / np.where(hang > 0, hang, 1.0), 0.0)
         restoring = np.zeros(size)
-        restoring[0::3] = k_hanger
+        restoring[0::m] = k_hanger
         KG = KG + sp.diags(restoring)  # a stabilising stiffness that grows with the load
     free = np.setdiff1d(np.arange(size), np.array(sorted(held), dtype=int))
     return K, KG, free
 
 
 def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_sq: np.ndarray,
-          moment: np.ndarray, restraints: LateralRestraints, modes: int = 3) -> tuple[np.ndarray, np.ndarray]:
-    """Buckling factors (ascending, positive) and modes (modes, stations, 3: w, twist, lateral rotation).
+          moment: np.ndarray, restraints: LateralRestraints, modes: int = 3,
+          EIw: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Buckling factors (ascending, positive) and modes (modes, stations, 3: w, twist, lateral rotation);
+    ``EIw`` (per element, kNm4) adds the warping stiffness of an open section.
 
     Raises:
         AnalysisError: if the rib is free to move out of its plane (no restraint), or the eigensolver fails.
@@ -186,8 +221,11 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
     import scipy.linalg
 
     n = axis.count
-    K, KG, free = assemble(axis, EI_lat, GJ, axial, r0_sq, moment, restraints)
-    size = 3 * n
+    if EIw is not None and not np.any(EIw > 0):
+        EIw = None
+    m = 3 if EIw is None else 4
+    K, KG, free = assemble(axis, EI_lat, GJ, axial, r0_sq, moment, restraints, EIw)
+    size = m * n
     # basis of the admissible displacements: identity on the free dofs, with a fork's twist removed by
     # keeping at each springing only the rotation about the in-plane normal of its end element
     dx, dy = np.diff(axis.x), np.diff(axis.y)
@@ -196,12 +234,12 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
     rows, cols, vals = [], [], []
     col = 0
     for dof in free:
-        node, kind = divmod(int(dof), 3)
+        node, kind = divmod(int(dof), m)
         if restraints.springings == "fork" and node in ends and kind in (1, 2):
             if kind == 2:
                 continue
             c, s = ends[node]
-            rows += [3 * node + 1, 3 * node + 2]  # the rotation about the normal: theta = psi (-s, c)
+            rows += [m * node + 1, m * node + 2]  # the rotation about the normal: theta = psi (-s, c)
             cols += [col, col]
             vals += [-s, c]
         else:
@@ -228,8 +266,8 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
     full = (T @ vec).T  # (modes, size)
     shapes = np.zeros((factors.size, n, 3))
     c_st, s_st = np.cos(axis.theta), np.sin(axis.theta)
-    for m in range(factors.size):
-        u = full[m].reshape(n, 3)
+    for j in range(factors.size):
+        u = full[j].reshape(n, -1)
         w = u[:, 0]
         twist = c_st * u[:, 1] + s_st * u[:, 2]
         rotation = -s_st * u[:, 1] + c_st * u[:, 2]
@@ -237,7 +275,7 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
         if big == 0.0:
             big = float(np.abs(u).max()) or 1.0
         sign = np.sign(w[int(np.argmax(np.abs(w)))]) or 1.0
-        shapes[m] = np.stack([w, twist, rotation], axis=-1) * sign / big
+        shapes[j] = np.stack([w, twist, rotation], axis=-1) * sign / big
     return factors, shapes
 
 
@@ -267,8 +305,10 @@ def restraints_of(case, axis: Axis, loads, state: int) -> tuple[LateralRestraint
     if lat.brace_x_m:
         stiffness = ("rigid" if lat.brace_stiffness_kN_m is None else f"{lat.brace_stiffness_kN_m:g} kN/m each")
         words.append(f"braces at x = {', '.join(f'{x:g}' for x in lat.brace_x_m)} m ({stiffness})")
-    return (LateralRestraints(lat.springings.value, lat.brace_x_m, lat.brace_stiffness_kN_m, force, length),
-            "; ".join(words))
+    if lat.plan_stiffness_kNm_rad is not None and lat.springings.value == "fork":
+        words[0] += f" with a spring of {lat.plan_stiffness_kNm_rad:g} kNm/rad against turning in plan"
+    return (LateralRestraints(lat.springings.value, lat.brace_x_m, lat.plan_stiffness_kNm_rad, lat.brace_stiffness_kN_m,
+                              force, length), "; ".join(words))
 
 
 def state_lateral(case, analysis, response, loads, k: int, modes: int = 2) -> LateralBuckling:
@@ -304,11 +344,15 @@ def state_lateral(case, analysis, response, loads, k: int, modes: int = 2) -> La
     if restraints.hanger_force_kN is not None:
         force = np.add.reduceat(restraints.hanger_force_kN, keep) if n > LATERAL_STATIONS else \
             restraints.hanger_force_kN
-        restraints = LateralRestraints(restraints.springings, restraints.brace_x_m, restraints.brace_stiffness_kN_m,
-                                       force, restraints.hanger_length_m[keep])
+        restraints = LateralRestraints(restraints.springings, restraints.brace_x_m, restraints.plan_stiffness_kNm_rad,
+                                       restraints.brace_stiffness_kN_m, force, restraints.hanger_length_m[keep])
     if not np.any(axial < 0.0):
         return LateralBuckling(response.names[k], response.groups[k], np.zeros(0), np.zeros((0, n, 3)), words)
-    factors, shapes = solve(sub, mean(E * I_lat), mean(G * J), axial, r0_sq, response.M[k][keep], restraints, modes)
+    warping = None
+    if rib.warping_constant_m6:
+        warping = mean(E * rib.warping_constant_m6 * scale_I)
+    factors, shapes = solve(sub, mean(E * I_lat), mean(G * J), axial, r0_sq, response.M[k][keep], restraints, modes,
+                            warping)
     if n > LATERAL_STATIONS:
         shapes = np.stack([np.stack([np.interp(axis.x, sub.x, m[:, c]) for c in range(3)], axis=-1) for m in shapes])
     return LateralBuckling(response.names[k], response.groups[k], factors, shapes, words)

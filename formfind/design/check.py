@@ -368,8 +368,9 @@ def _lateral_rows(results: tuple, case: Case) -> list[CheckRow]:
         symmetric = _lateral_symmetry(b.modes[0][:, 0])
         rows.append(CheckRow("out-of-plane buckling factor", a, least, "-", least / a, b.group, b.state, None, None,
                              PASS if a >= least else FAIL,
-                             f"lateral bending and twist of the rib ({symmetric} mode); {b.restraint}; linear, "
-                             "warping stiffness left out"))
+                             f"lateral bending and twist of the rib ({symmetric} mode); {b.restraint}; linear"
+                             + ("" if case.section.warping_constant_m6 else
+                                ", no warping stiffness (none given for this section)")))
     return rows
 
 

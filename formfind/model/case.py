@@ -202,6 +202,7 @@ class LateralSettings:
 
     check: bool = schema.default(schema.LATERAL, "check")
     springings: LateralSupport = schema.default(schema.LATERAL, "springings")
+    plan_stiffness_kNm_rad: float | None = None
     brace_x_m: tuple[float, ...] = ()
     brace_stiffness_kN_m: float | None = None
     deck_level_m: float | None = None
@@ -535,8 +536,8 @@ def _lateral(raw: dict[str, Any], geometry: Geometry, file: str) -> LateralSetti
         _within(x, geometry.span_m, file, f"lateral.brace_x_m[{i}]")
     if raw["brace_stiffness_kN_m"] is not None and not braces:
         raise CaseError(file, "lateral.brace_stiffness_kN_m", "applies only with brace_x_m (where the braces are)")
-    return LateralSettings(raw["check"], raw["springings"], braces, raw["brace_stiffness_kN_m"], raw["deck_level_m"],
-                           raw["min_factor"])
+    return LateralSettings(raw["check"], raw["springings"], raw["plan_stiffness_kNm_rad"], braces,
+                           raw["brace_stiffness_kN_m"], raw["deck_level_m"], raw["min_factor"])
 
 
 def _geometry(g: dict[str, Any], file: str) -> Geometry:

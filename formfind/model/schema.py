@@ -429,6 +429,9 @@ LATERAL = Table(
             default=True),
         Key("springings", LateralSupport, "fork: the springings hold the rib sideways and against twist, free "
             "to turn in plan; fixed: they also hold those rotations.", default=LateralSupport.FORK.value),
+        Key("plan_stiffness_kNm_rad", "number", "An elastic fork: the stiffness of each springing against the "
+            "rib turning in plan (about the in-plane normal); not given: free to turn.", "kNm/rad", default=None,
+            positive=True, when=("springings", ("fork",))),
         Key("brace_x_m", "numbers", "Abscissae of lateral braces (bracing to a deck, a roof plate or a twin "
             "rib); a brace holds the rib's axis sideways, not its twist.", "m", default=None),
         Key("brace_stiffness_kN_m", "number", "Lateral stiffness of each brace; not given: rigid braces.",

@@ -179,3 +179,52 @@ def test_default_case_reports_out_of_plane_buckling():
     culvert = formfind.load_case(ROOT / "cases" / "masonry-culvert.toml")
     assert not any(r.name == "out-of-plane buckling factor"
                    for r in formfind.check(culvert, formfind.analyse(culvert)).rows)
+
+
+def _warped(L, n, EI, GJ, EIw, axial, moment, r0_sq):
+    ne = n - 1
+    factors, _ = solve(_straight(L, n), np.full(ne, EI), np.full(ne, GJ), np.full(ne, axial), np.full(ne, r0_sq),
+                       np.full(n, moment), LateralRestraints(), 2, np.full(ne, EIw))
+    return float(factors[0])
+
+
+def test_warping_stiffens_torsional_and_lateral_torsional_buckling():
+    """With warping (fork ends, warping free): a column buckles in torsion at P = (G J + pi^2 E I_w / L^2)
+    / r0^2, and a beam in pure bending at M = (pi / L) sqrt(E I_lat (G J + pi^2 E I_w / L^2)) (Timoshenko &
+    Gere, torsional buckling of columns and lateral buckling of I-beams). 80 elements: 0.1 %."""
+    L, EI, GJ, EIw, r0_sq = 10.0, 1.0e6, 50.0, 400.0, 0.05
+    torsion = (GJ + np.pi**2 * EIw / L**2) / r0_sq
+    assert _warped(L, 81, EI, GJ, EIw, -1.0, 0.0, r0_sq) == pytest.approx(torsion, rel=1e-3)
+    EI = 1000.0
+    bending = np.pi / L * np.sqrt(EI * (GJ + np.pi**2 * EIw / L**2))
+    assert _warped(L, 81, EI, GJ, EIw, 0.0, 1.0, 0.0) == pytest.approx(bending, rel=1e-3)
+    # and with no warping constant the cubic twist gives the linear twist's answer
+    assert _warped(L, 81, EI, GJ, 1e-9, 0.0, 1.0, 0.0) == pytest.approx(np.pi / L * np.sqrt(EI * GJ), rel=1e-3)
+
+
+def test_a_flat_arch_in_uniform_bending_tends_to_the_straight_beam():
+    """Circular arches in uniform bending: the curved-beam closed forms of the literature differ (Vlasov's
+    and later ones disagree on the curvature terms), so only their common limit is held here: as the
+    radius grows the factor tends to the straight beam's (pi / L) sqrt(E I_lat G J) (Timoshenko & Gere)."""
+    EI, GJ, arc = 1000.0, 800.0, 10.0
+    straight = np.pi / arc * np.sqrt(EI * GJ)
+    errors = []
+    for radius in (20.0, 80.0, 320.0):
+        f = _factor(_circular(radius, arc / radius, 121), EI, GJ, 0.0, 1.0)
+        errors.append(abs(f / straight - 1.0))
+    assert errors[-1] < 0.01 and errors[0] > errors[1] > errors[2]
+
+
+def test_elastic_forks_lie_between_free_and_fixed_ends():
+    """A column whose ends turn in plan against springs k: the factor rises with k from the pinned Euler
+    load pi^2 E I / L^2 to the clamped 4 pi^2 E I / L^2, which "fixed" springings give (Timoshenko & Gere,
+    columns with elastically restrained ends)."""
+    EI, L = 1000.0, 10.0
+    axis = _straight(L, 61)
+    values = [_factor(axis, EI, 5000.0, -1.0, 0.0, 0.0, LateralRestraints(plan_stiffness_kNm_rad=k))
+              for k in (0.0, 100.0, 1000.0, 1e4, 1e9)]
+    assert values[0] == pytest.approx(np.pi**2 * EI / L**2, rel=1e-5)
+    assert all(b > a for a, b in zip(values, values[1:], strict=False))
+    clamped = _factor(axis, EI, 5000.0, -1.0, 0.0, 0.0, LateralRestraints(springings="fixed"))
+    assert clamped == pytest.approx(4 * np.pi**2 * EI / L**2, rel=1e-4)
+    assert values[-1] == pytest.approx(clamped, rel=1e-5)
