@@ -611,7 +611,7 @@ def _as_information(row: CheckRow) -> CheckRow:
 
 def _unreinforced(case: Case, analysis: CaseAnalysis):
     """Thrust-line rows of a no-tension rib: admissibility per combination, collapse of collapse_case."""
-    from formfind.design.thrust import admissibility, collapse_factors
+    from formfind.design.thrust import admissibility, collapse_factors, joint_forces, least_friction
 
     settings = case.check
     axis = analysis.axis
@@ -624,6 +624,7 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
     with np.errstate(divide="ignore", invalid="ignore"):
         guess = np.nan_to_num(np.abs(response.M) / np.maximum(-response.N, 0.0) / (0.5 * depth), nan=np.inf).max(axis=1)
     results = admissibility(axis, loads, depth, settings.min_geometric_factor, kind, hinge, np.argsort(-guess))
+    joints = joint_forces(axis, loads, depth, kind, hinge)
     table = tuple(ThrustLineRow(g, r.state, r.admissible, r.geometric_factor)
                   for g, r in zip(loads.groups, results, strict=True))
     rows = []
@@ -640,6 +641,18 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
                              FAIL if failing else PASS,
                              f"{len(failing)} of {len(mine)} states have no line of thrust within depth/{need:g}"
                              if failing else f"all {len(mine)} states hold a line of thrust within depth/{need:g}"))
+        k = loads.names.index(governing.state)
+        ring = np.isfinite(value) and value >= need
+        fraction = 1.0 / need if ring else 1.0  # within depth/need if the ring has one there, else the ring
+        friction, joint = least_friction(joints, k, fraction)
+        mu = settings.friction_coefficient
+        where = (f"at x = {axis.x[joint]:.2f} m" if joint >= 0 else "no line of thrust within the zone")
+        rows.append(CheckRow("thrust line: sliding", friction, mu, "-", friction / mu if np.isfinite(friction) else None,
+                             group, governing.state, joint if joint >= 0 else None,
+                             float(axis.x[joint]) if joint >= 0 else None,
+                             PASS if friction <= mu else FAIL,
+                             f"the least shear-to-normal ratio that a line of thrust within depth/{1 / fraction:g} needs "
+                             f"at every joint (joints normal to the axis), {where}"))
     collapse: tuple = ()
     if settings.collapse_case:
         permanent = [i for i, c in enumerate(case.cases) if c.action is ActionKind.PERMANENT]

@@ -70,6 +70,9 @@ class JointForces:
     A_N: np.ndarray
     half_depth: np.ndarray
     hinges: tuple[int, ...]
+    V: np.ndarray | None = None
+    V_left: np.ndarray | None = None
+    A_V: np.ndarray | None = None
 
 
 def _unit_cuts(axis: Axis) -> CutResultants:
@@ -87,15 +90,16 @@ def joint_forces(axis: Axis, loads: StationLoads, depth_m: np.ndarray,
     """
     cuts = cut_resultants(axis, loads)
     zero = np.zeros((loads.count, 2))
-    N, _, M, N_left, _ = internal_forces(axis, cuts, zero, np.zeros(loads.count))
+    N, V, M, N_left, V_left = internal_forces(axis, cuts, zero, np.zeros(loads.count))
     unit = np.eye(3)
-    uN, _, uM, _, _ = internal_forces(axis, _unit_cuts(axis), unit[:, :2], unit[:, 2])
+    uN, uV, uM, _, _ = internal_forces(axis, _unit_cuts(axis), unit[:, :2], unit[:, 2])
     hinges: tuple[int, ...] = ()
     if kind is not SupportKind.FIXED:
         hinges = (0, axis.count - 1)
     if kind is SupportKind.THREE_HINGED and hinge_station is not None:
         hinges = (0, hinge_station, axis.count - 1)
-    return JointForces(M, N, N_left, uM.T.copy(), uN.T.copy(), 0.5 * np.asarray(depth_m, dtype=float), hinges)
+    return JointForces(M, N, N_left, uM.T.copy(), uN.T.copy(), 0.5 * np.asarray(depth_m, dtype=float), hinges,
+                       V, V_left, uV.T.copy())
 
 
 class _ZoneProgram:
@@ -220,6 +224,62 @@ def admissibility(axis: Axis, loads: StationLoads, depth_m: np.ndarray, required
         if worst_k is not None:
             factor[worst_k] = 1.0 / worst_s if worst_s > 0 else np.inf
     return tuple(ZoneResult(loads.names[k], bool(ok[k]), float(factor[k])) for k in range(loads.count))
+
+
+def least_friction(joints: JointForces, state: int, fraction: float, tol: float = 1e-4) -> tuple[float, int]:
+    """The least friction coefficient that some line of thrust within zone ``fraction`` (half-width
+    fraction x d/2) needs at every joint: min over admissible lines of max |V| / (-N) at the joints, and
+    the joint where that line needs it most. Feasibility with |V| <= mu (-N) added is monotone in mu, so
+    mu is found by bisection on small LPs in the three reactions. (inf, -1) if no line fits the zone.
+
+    Joints are the sections normal to the axis at the stations; V and N are the shear and normal force
+    across them (`formfind.analysis.response`).
+    """
+    import cvxpy as cp
+
+    r = cp.Variable(3)
+    mu = cp.Parameter(nonneg=True)
+    j = joints
+    m = j.M[state] + j.A_M @ r
+    cons = []
+    for n_load, v_load in ((j.N[state], j.V[state]), (j.N_left[state], j.V_left[state])):
+        n = n_load + j.A_N @ r
+        v = v_load + j.A_V @ r
+        z = fraction * j.half_depth
+        cons += [m + cp.multiply(z, n) <= 0, -m + cp.multiply(z, n) <= 0, v + mu * n <= 0, -v + mu * n <= 0]
+    if j.hinges:
+        h = list(j.hinges)
+        cons.append(j.A_M[h] @ r == -j.M[state][h])
+    problem = cp.Problem(cp.Minimize(0), cons)
+
+    def holds(value: float) -> bool:
+        mu.value = value
+        return _solve(problem) in ("optimal", "optimal_inaccurate")
+
+    hi = 1.0
+    while not holds(hi):
+        hi *= 2.0
+        if hi > 1e3:
+            return float("inf"), -1
+    lo = 0.0
+    if holds(0.0):
+        hi = 0.0
+    while hi - lo > tol * max(hi, 1e-6):
+        mid = 0.5 * (lo + hi)
+        if holds(mid):
+            hi = mid
+        else:
+            lo = mid
+    holds(hi)
+    rv = np.asarray(r.value, dtype=float)
+    ratios = []
+    for n_load, v_load in ((j.N[state], j.V[state]), (j.N_left[state], j.V_left[state])):
+        n = n_load + j.A_N @ rv
+        v = v_load + j.A_V @ rv
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ratios.append(np.where(n < 0, np.abs(v) / -n, np.inf))
+    worst = np.maximum(*ratios)
+    return float(hi), int(np.argmax(worst))
 
 
 # ------------------------------------------------------------------------------------- collapse

@@ -165,6 +165,7 @@ class CheckSettings:
     unreinforced: bool = schema.default(schema.CHECK, "unreinforced")
     min_geometric_factor: float = schema.default(schema.CHECK, "min_geometric_factor")
     collapse_case: str = schema.default(schema.CHECK, "collapse_case")
+    friction_coefficient: float = schema.default(schema.CHECK, "friction_coefficient")
     min_collapse_factor: float = schema.default(schema.CHECK, "min_collapse_factor")
 
 
@@ -518,6 +519,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             unreinforced=check_raw["unreinforced"],
             min_geometric_factor=check_raw["min_geometric_factor"],
             collapse_case=_collapse_case(check_raw, cases, file),
+            friction_coefficient=check_raw["friction_coefficient"],
             min_collapse_factor=check_raw["min_collapse_factor"],
         ),
         study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),

@@ -414,6 +414,10 @@ CHECK = Table(
         Key("collapse_case", "string", "A variable load case (point or line loads, or an axle train) to "
             "raise until the unreinforced rib collapses, on top of the unfactored permanent cases.",
             default=""),
+        Key("friction_coefficient", "number", "Friction coefficient of the joints of an unreinforced ring: "
+            "some line of thrust within the ring must need no more than this ratio of shear to normal force at "
+            "every joint (0.6 is an example, common practice for mortared masonry, no source).", default=0.6,
+            positive=True, maximum=2.0),
         Key("min_collapse_factor", "number", "Least collapse load factor on collapse_case.", default=1.0,
             positive=True),
     ),
