@@ -162,3 +162,16 @@ def test_least_thickness_is_public_with_its_centroid_option():
         formfind.least_thickness(axis, "glued")
     with pytest.raises(ArgumentError, match="least_thickness: axis: expected an Axis"):
         formfind.least_thickness([0, 1, 2])
+
+
+def test_to_frame_gives_one_row_per_state_and_station():
+    """Response.to_frame (pandas, optional): the table holds exactly the arrays, long format."""
+    pd = pytest.importorskip("pandas")
+    case = arch("two_hinged", combinations=[build.combination("ULS", {"deck": 1.35})])
+    result = formfind.analyse(case, displacements=True)
+    frame = result.combinations.to_frame()
+    assert isinstance(frame, pd.DataFrame)
+    assert len(frame) == result.combinations.count * result.axis.count
+    assert np.array_equal(frame["M_kNm"].to_numpy(), result.combinations.M.ravel())
+    assert np.array_equal(frame["uy_m"].to_numpy(), result.combinations.displacements[:, :, 1].ravel())
+    assert set(frame["group"]) == {"ULS"}

@@ -65,6 +65,33 @@ class Response:
         """Horizontal thrust H per state (kN): left horizontal reaction, or the tie force if tied."""
         return self.reactions[:, 0, 0] + self.tie_force
 
+    def to_frame(self):
+        """The response as a pandas DataFrame, one row per state and station: state, group, x_m, N_kN,
+        V_kN, M_kNm, N_left_kN, V_left_kN, and ux_m, uy_m, rotation_rad where displacements exist.
+        pandas is optional: formfind does not need it, this method does.
+
+        Raises:
+            ArgumentError: if pandas is not installed (the message says how to install it).
+        """
+        try:
+            import pandas as pd
+        except ImportError:
+            from formfind.errors import ArgumentError
+
+            raise ArgumentError("to_frame: needs pandas, an optional dependency: pip install pandas") from None
+        states, stations = self.M.shape
+        columns = {
+            "state": np.repeat(np.array(self.names, dtype=object), stations),
+            "group": np.repeat(np.array(self.groups, dtype=object), stations),
+            "x_m": np.tile(self.x, states),
+            "N_kN": self.N.ravel(), "V_kN": self.V.ravel(), "M_kNm": self.M.ravel(),
+            "N_left_kN": self.N_left.ravel(), "V_left_kN": self.V_left.ravel(),
+        }
+        if self.displacements is not None:
+            for j, name in enumerate(("ux_m", "uy_m", "rotation_rad")):
+                columns[name] = self.displacements[:, :, j].ravel()
+        return pd.DataFrame(columns)
+
     def select(self, states: list[int]) -> Response:
         """A response holding only the given states, in the given order."""
         idx = np.asarray(states, dtype=int)
