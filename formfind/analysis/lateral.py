@@ -209,6 +209,38 @@ def assemble(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, 
     return K, KG, free
 
 
+DENSE_BELOW = 120  # freedoms: below this a dense eigensolution is quicker than the iterative one
+
+
+def _largest(g: sp.csc_matrix, k: sp.csc_matrix, modes: int) -> tuple[np.ndarray, np.ndarray]:
+    """The largest eigenvalues mu (and vectors) of g phi = mu k phi, k positive definite: by ARPACK on the
+    banded sparse matrices with k factorised once (a seeded start vector: the same answer every run),
+    dense for small problems or where ARPACK does not converge.
+
+    Raises:
+        AnalysisError: if k is singular (the rib is not held out of its plane).
+    """
+    import scipy.linalg
+    from scipy.sparse.linalg import ArpackError, ArpackNoConvergence, LinearOperator, eigsh, splu
+
+    size = k.shape[0]
+    if size >= DENSE_BELOW:
+        try:
+            lu = splu(k)
+            k_inv = LinearOperator(k.shape, matvec=lambda v: lu.solve(np.ravel(v)), dtype=float)
+            start = np.random.default_rng(20241205).standard_normal(size)
+            return eigsh(g, k=min(modes + 3, size - 2), M=k, Minv=k_inv, which="LA", tol=1e-10, v0=start)
+        except RuntimeError as exc:  # a singular k: splu says "Factor is exactly singular"
+            if "singular" in str(exc):
+                raise AnalysisError("out-of-plane buckling: the rib is not held out of its plane") from None
+        except (ArpackError, ArpackNoConvergence):
+            pass
+    try:
+        return scipy.linalg.eigh(g.toarray(), k.toarray())
+    except np.linalg.LinAlgError as exc:
+        raise AnalysisError(f"out-of-plane buckling: the rib is not held out of its plane ({exc})") from None
+
+
 def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_sq: np.ndarray,
           moment: np.ndarray, restraints: LateralRestraints, modes: int = 3,
           EIw: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
@@ -218,8 +250,6 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
     Raises:
         AnalysisError: if the rib is free to move out of its plane (no restraint), or the eigensolver fails.
     """
-    import scipy.linalg
-
     n = axis.count
     if EIw is not None and not np.any(EIw > 0):
         EIw = None
@@ -248,15 +278,12 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
             vals.append(1.0)
         col += 1
     T = sp.csr_matrix((vals, (rows, cols)), shape=(size, col))
-    k = (T.T @ K @ T).toarray()
-    g = -(T.T @ KG @ T).toarray()
+    k = (T.T @ K @ T).tocsc()
+    g = -(T.T @ KG @ T).tocsc()
     k = 0.5 * (k + k.T)
     g = 0.5 * (g + g.T)
-    try:
-        # mu = 1 / lambda: g phi = mu k phi, k positive definite; the largest mu are the smallest factors
-        mu, vec = scipy.linalg.eigh(g, k)
-    except np.linalg.LinAlgError as exc:
-        raise AnalysisError(f"out-of-plane buckling: the rib is not held out of its plane ({exc})") from None
+    # mu = 1 / lambda: g phi = mu k phi, k positive definite; the largest mu are the smallest factors
+    mu, vec = _largest(g, k, modes)
     order = np.argsort(mu)[::-1]
     mu, vec = mu[order], vec[:, order]
     scale = max(float(np.abs(mu).max()), 1e-300)
