@@ -14,6 +14,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from formfind.analysis import statics
+from formfind.analysis.accuracy import Accuracy, accuracy_of
 from formfind.analysis.buckling import BucklingResult, buckle
 from formfind.analysis.dynamics import Modes, natural_modes, permanent_mass
 from formfind.analysis.frame import FrameModel, build_frame, solve
@@ -35,7 +36,8 @@ class CaseAnalysis:
     ``cases`` holds one state per load case (one per position for a moving train); ``combinations``
     one per combination (likewise expanded). ``buckling`` has one entry per combination (per load
     case where the case has no combination), for its state of largest thrust (the most compressed
-    position of a moving train), or is empty when buckling is switched off.
+    position of a moving train), or is empty when buckling is switched off. ``accuracy`` is the
+    estimated relative error of the forces (`formfind.analysis.accuracy`).
     """
 
     case: Case
@@ -47,6 +49,7 @@ class CaseAnalysis:
     buckling: tuple[BucklingResult, ...]
     frame: FrameModel | None
     modes: Modes | None = None
+    accuracy: Accuracy | None = None
 
     def state(self, name: str) -> Response:
         """The response of one load state by name (a state, or a case or combination of one state)."""
@@ -202,6 +205,7 @@ def analyse(
         combinations=combos,
         buckling=buckling,
         frame=model,
+        accuracy=accuracy_of(model if case.supports.kind is not SupportKind.THREE_HINGED else None),
     )
     if case.analysis.natural_modes > 0 and want_buckling:
         try:

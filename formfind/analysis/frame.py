@@ -88,6 +88,9 @@ class ResponseMaps:
         condition_estimate: 1-norm condition estimate of the scaled free stiffness, or None where the
             model was built without it (form finding's trial axes: it is then estimated only if the
             equilibrium verification needs a wider tolerance).
+        backward_error: normwise backward error of the maps' solve (`FrameModel.solve_free`).
+        forward_error: the maps' relative error, estimated by a refinement step with its residual in
+            extended precision.
     """
 
     element: np.ndarray
@@ -99,6 +102,8 @@ class ResponseMaps:
     completed: tuple[int, ...]
     tie_direction: np.ndarray
     condition_estimate: float | None
+    backward_error: float = 0.0
+    forward_error: float = 0.0
 
     def tolerance(self, condition: float | None = None) -> float:
         """Relative tolerance of the equilibrium verification: max(1e-9, 100 eps cond)."""
@@ -351,6 +356,12 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
         )
         rhs = np.column_stack([k_fr, t_full[free]])
     x, error = model.solve_free(rhs)
+    # the forward error of the maps, estimated by one more refinement step whose residual is computed in
+    # extended precision (Higham, Accuracy and Stability of Numerical Algorithms, iterative refinement):
+    # the correction's size is the error the double-precision solution still carries
+    residual = np.asarray(rhs, dtype=np.longdouble) - model.k_ff.astype(np.longdouble) @ np.asarray(x, np.longdouble)
+    correction, _ = model.solve_free(np.asarray(residual, dtype=float))
+    forward = float(np.abs(correction).max() / max(float(np.abs(x).max()), 1e-300))
     if not error <= RESIDUAL_RTOL:
         raise AnalysisError(
             f"linear solve of the {model.kind.value} arch is not trustworthy: backward error {error:.2e} "
@@ -389,6 +400,8 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
         completed=completed,
         tie_direction=direction,
         condition_estimate=cond,
+        backward_error=error,
+        forward_error=forward,
     )
 
 

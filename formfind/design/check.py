@@ -300,6 +300,8 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
         rows.append(CheckRow("in-plane buckling factor", float(a) if np.isfinite(a) else float("inf"),
                              settings.min_buckling_factor, "-", util, group, group, None, None,
                              PASS if a >= settings.min_buckling_factor else FAIL, so))
+    if analysis.accuracy is not None and analysis.accuracy.condition is not None:
+        rows.append(_accuracy_row(analysis.accuracy, case.analysis.accuracy))
     sideways: tuple = ()
     if case.lateral.check and not settings.unreinforced and properties_known(case.section) and response.count:
         sideways = _lateral(case, analysis, response, all_loads.select(strength))
@@ -341,6 +343,18 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
                       where=first > 0)
     return CheckResult(tuple(rows), s_max, s_min, ratio, method, pattern, tuple(added.items()), thrust_rows, collapse,
                        tuple(design.imperfections.values()), moved, response.names, lasting, crowd, sideways)
+
+
+def _accuracy_row(accuracy, tolerance: float) -> CheckRow:
+    """The frame's estimated relative error against the case's tolerance."""
+    good = accuracy.forward_error <= tolerance
+    note = (f"condition estimate {accuracy.condition:.1e} x backward error {accuracy.backward_error:.1e} (at least "
+            f"the round-off): about {max(accuracy.digits, 0):.0f} good digits")
+    if not good:
+        note += ("; the stiffness is ill-conditioned (a huge area making the rib nearly rigid?): the results "
+                 "cannot be trusted to the digits reported")
+    return CheckRow("numerical accuracy", accuracy.forward_error, tolerance, "-", accuracy.forward_error / tolerance,
+                    "all", "frame solve", None, None, PASS if good else FAIL, note)
 
 
 def _lateral(case: Case, analysis: CaseAnalysis, response: Response, loads) -> tuple:

@@ -138,6 +138,7 @@ class AnalysisSettings:
 
     shear_deformation: bool = schema.default(schema.ANALYSIS, "shear_deformation")
     buckling: bool = schema.default(schema.ANALYSIS, "buckling")
+    accuracy: float = schema.default(schema.ANALYSIS, "accuracy")
     buckling_modes: int = schema.default(schema.ANALYSIS, "buckling_modes")
     natural_modes: int = schema.default(schema.ANALYSIS, "natural_modes")
     pressure_follows_axis: bool = schema.default(schema.ANALYSIS, "pressure_follows_axis")

@@ -264,6 +264,10 @@ ANALYSIS = Table(
     (
         Key("shear_deformation", "boolean", "Include shear deformation in the frame elements.", default=False),
         Key("buckling", "boolean", "Compute the in-plane buckling factor of every combination.", default=True),
+        Key("accuracy", "number", "Largest estimated relative error of the frame's forces (condition of the "
+            "stiffness x backward error of the solve) the checks accept; a rib made nearly rigid by a huge area "
+            "passes it and fails (1e-6: six good digits, common practice, no source).", default=1e-6,
+            positive=True, maximum=0.1),
         Key("buckling_modes", "integer", "Number of buckling modes to find, 1..20.", default=4, minimum=1,
             maximum=20),
         Key("natural_modes", "integer", "Natural modes in the plane to find (frequencies, shapes, modal masses; "
