@@ -348,8 +348,9 @@ def check(case: Case, analysis: CaseAnalysis) -> CheckResult:
 def _accuracy_row(accuracy, tolerance: float) -> CheckRow:
     """The frame's estimated relative error against the case's tolerance."""
     good = accuracy.forward_error <= tolerance
-    note = (f"condition estimate {accuracy.condition:.1e} x backward error {accuracy.backward_error:.1e} (at least "
-            f"the round-off): about {max(accuracy.digits, 0):.0f} good digits")
+    note = (f"relative error of the frame's forces estimated by a refinement step in extended precision: about "
+            f"{max(accuracy.digits, 0):.0f} good digits (condition estimate {accuracy.condition:.1e}, backward "
+            f"error {accuracy.backward_error:.1e})")
     if not good:
         note += ("; the stiffness is ill-conditioned (a huge area making the rib nearly rigid?): the results "
                  "cannot be trusted to the digits reported")
