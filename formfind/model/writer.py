@@ -142,58 +142,25 @@ def case_table(case) -> dict[str, Any]:
     if stations:
         table["stations"] = stations
 
-    analysis: dict[str, Any] = {}
-    for key in schema.ANALYSIS.keys:
-        _put(analysis, schema.ANALYSIS, key.name, getattr(case.analysis, key.name))
-    if analysis:
-        table["analysis"] = analysis
+    _settings(table, schema.ANALYSIS, case.analysis)
 
     table_find = _find(case)
     if table_find:
         table["find"] = table_find
 
     c = case.check
-    check: dict[str, Any] = {}
-    values = {"compression_limit_MPa": _mpa(c.compression_limit_kN_m2), "tension_limit_MPa": _mpa(c.tension_limit_kN_m2),
-              "patterned_factors": dict(c.patterned_factors) or None}
-    for key in schema.CHECK.keys:
-        value = values[key.name] if key.name in values else getattr(c, key.name)
-        if key.name == "patterned_factors":
-            if value:
-                check[key.name] = value
-            continue
-        _put(check, schema.CHECK, key.name, value)
-    if check:
-        table["check"] = check
-
-    lateral: dict[str, Any] = {}
-    lat = case.lateral
-    for key in schema.LATERAL.keys:
-        value = getattr(lat, key.name)
-        if key.name == "brace_x_m":
-            if value:
-                lateral[key.name] = list(value)
-            continue
-        _put(lateral, schema.LATERAL, key.name, value)
-    if lateral:
-        table["lateral"] = lateral
-
-    long_term: dict[str, Any] = {}
-    for key in schema.LONG_TERM.keys:
-        _put(long_term, schema.LONG_TERM, key.name, getattr(case.long_term, key.name))
-    if long_term:
-        table["long_term"] = long_term
+    _settings(table, schema.CHECK, c, {"compression_limit_MPa": _mpa(c.compression_limit_kN_m2),
+                                       "tension_limit_MPa": _mpa(c.tension_limit_kN_m2),
+                                       "patterned_factors": dict(c.patterned_factors) or None})
+    _settings(table, schema.LATERAL, case.lateral, {"brace_x_m": list(case.lateral.brace_x_m) or None})
+    _settings(table, schema.LONG_TERM, case.long_term)
 
     study = {name: list(getattr(case.study, name)) for name in ("rise_over_span", "span_m", "depth_m")
              if getattr(case.study, name)}
     if study:
         table["study"] = study
 
-    outputs: dict[str, Any] = {}
-    for key in schema.OUTPUTS.keys:
-        _put(outputs, schema.OUTPUTS, key.name, getattr(case.outputs, key.name))
-    if outputs:
-        table["outputs"] = outputs
+    _settings(table, schema.OUTPUTS, case.outputs)
 
     cases = []
     for lc in case.cases:
@@ -216,6 +183,22 @@ def case_table(case) -> dict[str, Any]:
     if combinations:
         table["combinations"] = combinations
     return table
+
+
+def _settings(table: dict[str, Any], spec: schema.Table, settings, converted: dict[str, Any] | None = None) -> None:
+    """A settings table (keys as the dataclass's fields, ``converted`` where the case file's unit or form
+    differs), defaults left out; nothing written if every value is its default."""
+    out: dict[str, Any] = {}
+    converted = converted or {}
+    for key in spec.keys:
+        value = converted[key.name] if key.name in converted else getattr(settings, key.name)
+        if key.kind in ("factors", "numbers") and key.name in converted:
+            if value:
+                out[key.name] = value
+            continue
+        _put(out, spec, key.name, value)
+    if out:
+        table[spec.header] = out
 
 
 def _differs(value: float | None, expected: float | None) -> bool:
