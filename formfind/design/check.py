@@ -638,6 +638,11 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
     response = analysis.combinations if use_combos else analysis.cases
     with np.errstate(divide="ignore", invalid="ignore"):
         guess = np.nan_to_num(np.abs(response.M) / np.maximum(-response.N, 0.0) / (0.5 * depth), nan=np.inf).max(axis=1)
+    pressure = None
+    if settings.fill_pressure:
+        at_rest = _fill_pressure(case, analysis, "none")
+        loads = replace(loads, dist=loads.dist + at_rest.dist[0][None])
+        pressure = "with the fill's pressure at rest on both haunches"
     results = admissibility(axis, loads, depth, settings.min_geometric_factor, kind, hinge, np.argsort(-guess))
     joints = joint_forces(axis, loads, depth, kind, hinge)
     table = tuple(ThrustLineRow(g, r.state, r.admissible, r.geometric_factor)
@@ -654,8 +659,10 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
         rows.append(CheckRow("thrust line: geometric factor", value, need, "-", util, group,
                              (failing[0] if failing else governing).state, None, None,
                              FAIL if failing else PASS,
-                             f"{len(failing)} of {len(mine)} states have no line of thrust within depth/{need:g}"
-                             if failing else f"all {len(mine)} states hold a line of thrust within depth/{need:g}"))
+                             "; ".join(t for t in (
+                                 f"{len(failing)} of {len(mine)} states have no line of thrust within depth/{need:g}"
+                                 if failing else f"all {len(mine)} states hold a line of thrust within depth/{need:g}",
+                                 pressure) if t)))
         k = loads.names.index(governing.state)
         ring = np.isfinite(value) and value >= need
         fraction = 1.0 / need if ring else 1.0  # within depth/need if the ring has one there, else the ring
@@ -673,20 +680,78 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
         permanent = [i for i, c in enumerate(case.cases) if c.action is ActionKind.PERMANENT]
         dead = _sum_states(analysis.loads.cases, [case.cases[i].name for i in permanent])
         live = analysis.loads.cases.select(analysis.loads.cases.group_states(settings.collapse_case))
-        collapse = collapse_factors(axis, dead, live, depth, kind, hinge)
+        if settings.fill_pressure:
+            collapse = _collapse_with_fill(case, analysis, dead, live, kind, hinge)
+        else:
+            collapse = collapse_factors(axis, dead, live, depth, kind, hinge)
         worst = min(collapse, key=lambda c: c.factor)
         need = settings.min_collapse_factor
         hinges = "; ".join(f"{h.x_m:.2f} m ({h.face})" for h in worst.hinges)
+        base = "on the unfactored permanent cases"
+        if settings.fill_pressure:
+            base += (f" and the fill's pressure (at rest, and {settings.passive_fraction:g} of the passive excess "
+                     f"on the haunch away from the load; fill friction {settings.fill_friction_deg:g} deg)")
         if worst.factor > 0 and np.isfinite(worst.factor):
-            util, note = need / worst.factor, "on the unfactored permanent cases"
+            util, note = need / worst.factor, base
         elif worst.factor > 0:
-            util, note = 0.0, "on the unfactored permanent cases; no collapse of the live load at any factor"
+            util, note = 0.0, f"{base}; no collapse of the live load at any factor"
         else:
             util, note = None, "no line of thrust fits the ring under the permanent cases alone: no utilisation"
         rows.append(CheckRow("thrust line: collapse factor", worst.factor, need, "-", util, settings.collapse_case,
                              worst.state, None, None, PASS if worst.factor >= need else FAIL,
                              f"{note}; hinges at {hinges}" if hinges else note))
     return table, collapse, rows
+
+
+def _fill_pressure(case: Case, analysis: CaseAnalysis, passive_side: str) -> StationLoads:
+    """The horizontal pressure of the permanent cases' fills on the extrados (one state): at rest on both
+    haunches, plus ``passive_fraction`` of the passive excess on ``passive_side`` ("left", "right" or
+    "none"). Coefficients: K0 = 1 - sin(phi) (Jaky), Kp = (1 + sin(phi)) / (1 - sin(phi)) (Rankine)."""
+    from formfind.model.loads import FillLoad, fill_pressure_loads
+    from formfind.model.section import crown_abscissa
+
+    settings = case.check
+    phi = np.radians(settings.fill_friction_deg)
+    k0 = 1.0 - np.sin(phi)
+    kp = (1.0 + np.sin(phi)) / (1.0 - np.sin(phi))
+    extra = settings.passive_fraction * (kp - k0)
+    left = k0 + (extra if passive_side == "left" else 0.0)
+    right = k0 + (extra if passive_side == "right" else 0.0)
+    axis = analysis.axis
+    crown = crown_abscissa(axis)
+    total = np.zeros((1, axis.count - 1, 2, 2))
+    for c in case.cases:
+        if c.action is ActionKind.PERMANENT:
+            for ld in c.loads:
+                if isinstance(ld, FillLoad):
+                    total += fill_pressure_loads(ld, axis, analysis.section, left, right, crown).dist
+    return StationLoads.from_densities(total, group="fill pressure")
+
+
+def _collapse_with_fill(case: Case, analysis: CaseAnalysis, dead: StationLoads, live: StationLoads, kind, hinge):
+    """Collapse factors with the fill's pressure in the dead load: for each live position the passive excess
+    acts on the haunch away from the live load's resultant (the side the ring sways into)."""
+    from formfind.design.thrust import collapse_factors
+    from formfind.model.section import crown_abscissa
+
+    axis = analysis.axis
+    crown = crown_abscissa(axis)
+    cuts = statics.cut_resultants(axis, live)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        centre = np.where(np.abs(cuts.total_force[:, 1]) > 0,
+                          cuts.total_moment / np.where(cuts.total_force[:, 1] != 0, cuts.total_force[:, 1], 1.0),
+                          crown)  # the x of the resultant of a vertical live load: moment / force about O
+    results: list = [None] * live.count
+    for side in ("left", "right"):
+        mine = [k for k in range(live.count) if (centre[k] > crown) == (side == "left")]
+        if not mine:
+            continue
+        pressure = _fill_pressure(case, analysis, side)
+        loaded = replace(dead, dist=dead.dist + pressure.dist)
+        for k, result in zip(mine, collapse_factors(axis, loaded, live.select(mine), analysis.section.depth_m,
+                                                    kind, hinge), strict=True):
+            results[k] = result
+    return tuple(results)
 
 
 def _sum_states(loads: StationLoads, groups: list[str]) -> StationLoads:

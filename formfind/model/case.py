@@ -166,6 +166,9 @@ class CheckSettings:
     unreinforced: bool = schema.default(schema.CHECK, "unreinforced")
     min_geometric_factor: float = schema.default(schema.CHECK, "min_geometric_factor")
     collapse_case: str = schema.default(schema.CHECK, "collapse_case")
+    fill_pressure: bool = schema.default(schema.CHECK, "fill_pressure")
+    fill_friction_deg: float = schema.default(schema.CHECK, "fill_friction_deg")
+    passive_fraction: float = schema.default(schema.CHECK, "passive_fraction")
     friction_coefficient: float = schema.default(schema.CHECK, "friction_coefficient")
     min_collapse_factor: float = schema.default(schema.CHECK, "min_collapse_factor")
 
@@ -520,6 +523,9 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             unreinforced=check_raw["unreinforced"],
             min_geometric_factor=check_raw["min_geometric_factor"],
             collapse_case=_collapse_case(check_raw, cases, file),
+            fill_pressure=_fill_pressure(check_raw, cases, file),
+            fill_friction_deg=check_raw["fill_friction_deg"],
+            passive_fraction=check_raw["passive_fraction"],
             friction_coefficient=check_raw["friction_coefficient"],
             min_collapse_factor=check_raw["min_collapse_factor"],
         ),
@@ -531,6 +537,16 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
         document=Document(meta["project"], meta["job_number"], meta["revision"], meta["drawn_by"],
                           meta["checked_by"], meta["issue_date"] or ""),
     )
+
+
+def _fill_pressure(check: dict[str, Any], cases: tuple[LoadCase, ...], file: str) -> bool:
+    if not check["fill_pressure"]:
+        return False
+    if not check["unreinforced"]:
+        raise CaseError(file, "check.fill_pressure", "applies to an unreinforced ring (unreinforced = true)")
+    if not any(isinstance(ld, FillLoad) for c in cases if c.action is ActionKind.PERMANENT for ld in c.loads):
+        raise CaseError(file, "check.fill_pressure", "needs a fill load (type = \"fill\") in a permanent case")
+    return True
 
 
 def _lateral(raw: dict[str, Any], geometry: Geometry, file: str) -> LateralSettings:

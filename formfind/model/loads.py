@@ -600,3 +600,38 @@ def build_load_set(
         for combo in combinations
     ]
     return LoadSet(cases=case_loads, combinations=StationLoads.concatenate(combos, elements))
+
+
+def fill_pressure_loads(load: FillLoad, axis: Axis, section: SectionAlong, left_coefficient: float,
+                        right_coefficient: float, crown_x_m: float) -> StationLoads:
+    """The horizontal pressure of a fill on the extrados as one load state (kN), pushing the ring inwards.
+
+    At a depth z below the fill surface the pressure is K (unit weight z + surcharge) per square metre,
+    times the fill's width; on each element it acts on the vertical projection of the extrados face (the
+    axis offset by half the depth along the normal), with K ``left_coefficient`` left of ``crown_x_m``
+    (pushing right) and ``right_coefficient`` right of it (pushing left). The resultant is applied on the
+    axis. A surface given by cover sits that far above the highest point of the measuring line, as for
+    the fill's weight.
+    """
+    extrados = axis.extrados(section.depth_m)[:, 1]
+    level = _fill_level(load, axis, section)
+    surface = load.surface_y_m if load.surface_y_m is not None else float(np.max(level)) + float(load.cover_m or 0.0)
+    mid = 0.5 * (extrados[:-1] + extrados[1:])
+    depth = np.maximum(surface - mid, 0.0)
+    rise = np.diff(extrados)  # vertical projection of each element's extrados (m), signed
+    side_x = 0.5 * (axis.x[:-1] + axis.x[1:])
+    coefficient = np.where(side_x < crown_x_m, left_coefficient, right_coefficient)
+    direction = np.where(side_x < crown_x_m, 1.0, -1.0)  # inwards
+    wet = surface > np.minimum(extrados[:-1], extrados[1:])  # some of the element lies below the surface
+    # the depth varies linearly along a straight element: the midpoint rule is exact where it is all buried;
+    # an element crossing the surface takes the buried part only
+    top = np.maximum(extrados[:-1], extrados[1:])
+    bottom = np.minimum(extrados[:-1], extrados[1:])
+    buried = np.clip(surface - bottom, 0.0, None)
+    height = np.where(top > surface, buried, np.abs(rise))
+    mean_depth = np.where(top > surface, 0.5 * buried, depth)
+    force = np.where(wet, coefficient * load.width_m * (load.unit_weight_kN_m3 * mean_depth + load.surcharge_kPa)
+                     * height, 0.0)
+    dist = np.zeros((1, axis.count - 1, 2, 2))
+    dist[0, :, 0, 0] = dist[0, :, 1, 0] = direction * force  # uniform along the element: density = force
+    return StationLoads.from_densities(dist, group="fill pressure")

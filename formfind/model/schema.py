@@ -418,6 +418,16 @@ CHECK = Table(
         Key("collapse_case", "string", "A variable load case (point or line loads, or an axle train) to "
             "raise until the unreinforced rib collapses, on top of the unfactored permanent cases.",
             default=""),
+        Key("fill_pressure", "boolean", "An unreinforced ring under fill: the fill's horizontal pressure on the "
+            "extrados acts in the thrust-line and collapse analyses, at rest (K0 = 1 - sin(phi), Jaky) on both "
+            "haunches, and partly passive on the haunch a collapsing ring sways into (passive_fraction). Needs a "
+            "fill load in a permanent case; false: no horizontal pressure.", default=False),
+        Key("fill_friction_deg", "number", "Friction angle phi of the fill, for its pressure coefficients (30 is "
+            "an example for a granular fill, common practice, no source).", "deg", default=30.0, positive=True,
+            maximum=50.0),
+        Key("passive_fraction", "number", "Fraction of the passive pressure above the at-rest one mobilised on "
+            "the haunch that moves into the fill at collapse (the side away from the load): K = K0 + f (Kp - K0), "
+            "Kp = (1 + sin(phi)) / (1 - sin(phi)) (Rankine).", default=0.0, minimum=0.0, maximum=1.0),
         Key("friction_coefficient", "number", "Friction coefficient of the joints of an unreinforced ring: "
             "some line of thrust within the ring must need no more than this ratio of shear to normal force at "
             "every joint (0.6 is an example, common practice for mortared masonry, no source).", default=0.6,
