@@ -62,13 +62,15 @@ def _brute(axis, solve_on, eps=1e-4):
     return np.stack([np.zeros((k, n)) if c is None else c for c in columns], axis=-1)
 
 
+@pytest.mark.parametrize("rigid", [False, True])
 @pytest.mark.parametrize("kind", [SupportKind.TWO_HINGED, SupportKind.FIXED, SupportKind.TIED])
-def test_frame_linearisation_matches_brute_force(kind):
+def test_frame_linearisation_matches_brute_force(kind, rigid):
+    """Also with an axially rigid rib, whose constraints turn with the moved elements."""
     axis, section, loads, _ = _setup()
-    model = build_frame(axis, section, kind, tie_EA_kN=5e5)
+    model = build_frame(axis, section, kind, tie_EA_kN=5e5, axially_rigid=rigid)
     moments = frame_model_moments(model, loads, solve(model, loads, displacements=False))
-    brute = _brute(axis, lambda moved: solve(build_frame(moved, section, kind, tie_EA_kN=5e5), loads,
-                                             displacements=False).M)
+    brute = _brute(axis, lambda moved: solve(build_frame(moved, section, kind, tie_EA_kN=5e5, axially_rigid=rigid),
+                                             loads, displacements=False).M)
     np.testing.assert_allclose(moments.dense(), brute, atol=RTOL * np.abs(brute).max())
 
 

@@ -16,7 +16,10 @@ direction gives noticeably higher factors, so compare like with like.
 
 Solved as mu = 1 / lambda of  -(K_G + K_L) phi = mu K phi  with K positive definite, by ARPACK's
 generalised symmetric mode on the free dofs (K factorised once); the largest mu give the smallest
-positive lambda, and a negative mu (a factor that would need the loads reversed) is discarded.
+positive lambda, and a negative mu (a factor that would need the loads reversed) is discarded. For an
+axially rigid rib (lengths held by constraints, `formfind.analysis.frame`) the same mu are the
+eigenvalues of K_c^-1 (-(K_G + K_L)), K_c^-1 the constrained inverse, found by ARPACK's general mode
+(the reduced pencil is symmetric definite, so they are real; round-off imaginary parts are dropped).
 """
 
 from __future__ import annotations
@@ -25,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigsh
+from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigs, eigsh
 
 from formfind.analysis.frame import FrameModel, rotation_matrices, solve
 from formfind.analysis.statics import cut_resultants
@@ -199,10 +202,22 @@ def buckle(
         # a seeded, unsymmetric start vector: deterministic output, and no symmetry class left out
         start = np.random.default_rng(20240601).standard_normal(free.size)
         # K is already factorised (scaled): hand ARPACK its inverse instead of letting it factorise K again
-        d = model._scale
-        k_inv = LinearOperator(k_ff.shape, matvec=lambda v: d * model._lu.solve(d * np.ravel(v)), dtype=float)
-        mu, vec = eigsh(g_ff, k=min(count + 2, free.size - 2), M=k_ff, Minv=k_inv, which="LA", tol=1e-10,
-                        v0=start)
+        if model.axially_rigid:
+            nodal = model.nodal_free
+            g_nn = g_ff[nodal][:, nodal].tocsr()
+            k_inv = model.constrained_inverse()
+            op = LinearOperator(k_inv.shape, matvec=lambda v: k_inv.matvec(g_nn @ np.ravel(v)), dtype=float)
+            mu_c, vec_c = eigs(op, k=min(count + 2, nodal.size - 2), which="LR", tol=1e-10, v0=start[nodal])
+            mu = mu_c.real
+            vec = np.zeros((free.size, mu.size))
+            # a real eigenvalue's vector comes with an arbitrary complex phase: keep its larger part
+            larger = np.linalg.norm(vec_c.real, axis=0) >= np.linalg.norm(vec_c.imag, axis=0)
+            vec[nodal] = np.where(larger, vec_c.real, vec_c.imag)
+        else:
+            d = model._scale
+            k_inv = LinearOperator(k_ff.shape, matvec=lambda v: d * model._lu.solve(d * np.ravel(v)), dtype=float)
+            mu, vec = eigsh(g_ff, k=min(count + 2, free.size - 2), M=k_ff, Minv=k_inv, which="LA", tol=1e-10,
+                            v0=start)
     except ArpackNoConvergence as exc:
         raise AnalysisError(f"buckling eigen-solver did not converge for state {one.names[0]!r}: {exc}") from None
     order = np.argsort(mu)[::-1]

@@ -109,7 +109,7 @@ def natural_modes(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndar
     Raises:
         AnalysisError: if the model has no mass or the eigen-solver fails.
     """
-    from scipy.sparse.linalg import ArpackNoConvergence, eigsh
+    from scipy.sparse.linalg import ArpackNoConvergence, LinearOperator, eigs, eigsh
 
     M = mass_matrix(model, mass_per_m, point_mass)
     free = model.free
@@ -125,7 +125,18 @@ def natural_modes(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndar
     try:
         # a fixed start vector: ARPACK's default is random, and the outputs must be the same bytes every run
         start = np.linspace(1.0, 2.0, free.size)
-        values, vectors = eigsh(k_ff, k=count, M=m_ff, sigma=0.0, which="LM", v0=start)
+        if model.axially_rigid:  # 1 / omega^2 of K_c^-1 M on the constraints' null space (as in buckling)
+            nodal = model.nodal_free
+            m_nn = m_ff[nodal][:, nodal].tocsr()
+            k_inv = model.constrained_inverse()
+            op = LinearOperator(k_inv.shape, matvec=lambda v: k_inv.matvec(m_nn @ np.ravel(v)), dtype=float)
+            inverse, found = eigs(op, k=min(count, nodal.size - 2), which="LM", v0=start[nodal])
+            values = 1.0 / inverse.real
+            larger = np.linalg.norm(found.real, axis=0) >= np.linalg.norm(found.imag, axis=0)
+            vectors = np.zeros((free.size, values.size))
+            vectors[nodal] = np.where(larger, found.real, found.imag)
+        else:
+            values, vectors = eigsh(k_ff, k=count, M=m_ff, sigma=0.0, which="LM", v0=start)
     except (ArpackNoConvergence, RuntimeError) as exc:
         raise AnalysisError(f"natural frequencies: the eigen-solver failed ({exc})") from None
     order = np.argsort(values)

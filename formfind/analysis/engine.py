@@ -92,7 +92,7 @@ def frame_model(case: Case, axis: Axis, section: SectionAlong, estimate_conditio
     if kind is SupportKind.TIED and case.tie_EA_kN is None:
         raise AnalysisError("a tied arch needs [supports] tie_area_m2 and tie_modulus_MPa")
     return build_frame(axis, section, kind, hinge, case.tie_EA_kN, case.analysis.shear_deformation,
-                       estimate_condition)
+                       estimate_condition, case.analysis.axially_rigid)
 
 
 def respond(

@@ -15,6 +15,15 @@ prismatic polygon;
 uniform temperature and a temperature difference across the depth enter as initial strains; support
 movements as prescribed displacements.
 
+Axially rigid rib (``axially_rigid``). Each element's chord length is held by a constraint (its
+elongation is zero, or the free thermal elongation alpha T L) with a Lagrange multiplier, the element's
+axial force, as one more unknown per element: the stiffness becomes the saddle-point matrix
+[[K, C^T], [C, 0]] (its multipliers after the nodal dofs, always free). The element's own E A stays in
+K, where at the solution it carries nothing (the constrained elongation is its free elongation), so the
+matrix keeps the conditioning of the elastic rib: the classical inextensional assumptions without the
+digits a huge area would cost. Since the constrained E A does no work, the model holds a stand-in
+12 E I / L^2 per element (the element's own transverse stiffness), which keeps K balanced.
+
 Solving. The stiffness is factorised once (sparse LU of the symmetrically scaled matrix). One solve
 with at most seven right-hand sides then gives `ResponseMaps`: linear functionals from a load state to
 every support reaction and the tie force. Every load state, and the unit loads of the influence
@@ -91,6 +100,8 @@ class ResponseMaps:
         backward_error: normwise backward error of the maps' solve (`FrameModel.solve_free`).
         forward_error: the maps' relative error, estimated by a refinement step with its residual in
             extended precision.
+        elongation: (functionals, elements) value per metre of imposed elongation of each element (the
+            constraints' right-hand sides of a rigid rib); (functionals, 0) for an elastic rib.
     """
 
     element: np.ndarray
@@ -104,6 +115,7 @@ class ResponseMaps:
     condition_estimate: float | None
     backward_error: float = 0.0
     forward_error: float = 0.0
+    elongation: np.ndarray | None = None
 
     def tolerance(self, condition: float | None = None) -> float:
         """Relative tolerance of the equilibrium verification: max(1e-9, 100 eps cond)."""
@@ -121,11 +133,13 @@ class FrameModel:
         hinge_station: station of the crown hinge (three-hinged arches), else None.
         tie_EA_kN: axial stiffness E A of the tie (tied arches), else None.
         shear_deformation: whether element stiffness includes shear deformation.
+        axially_rigid: whether each element's length is held by a constraint (module docstring); the
+            multiplier of element e is dof ``first_multiplier + e``, its axial force (kN, tension +).
         element_dofs: (elements, 6) global dof indices of each element's ends.
         length, cos, sin: chord length (m) and direction of each element.
-        EA, EI, GAs: element stiffnesses (kN, kNm2, kN).
-        stiffness: the full global stiffness matrix (CSC).
-        free, fixed: indices of free and restrained dofs.
+        EA, EI, GAs: element stiffnesses (kN, kNm2, kN); for a rigid rib EA is the stand-in 12 EI / L^2.
+        stiffness: the full global stiffness matrix (CSC); for a rigid rib the saddle-point matrix.
+        free, fixed: indices of free and restrained dofs (a rigid rib's multipliers are free).
     """
 
     axis: Axis
@@ -148,6 +162,12 @@ class FrameModel:
     maps: ResponseMaps | None
     _scale: np.ndarray
     _lu: object
+    axially_rigid: bool = False
+
+    @property
+    def first_multiplier(self) -> int:
+        """Index of the first constraint multiplier (rigid rib); the number of nodal dofs."""
+        return int(self.stiffness.shape[0]) - (self.length.size if self.axially_rigid else 0)
 
     @property
     def dof_count(self) -> int:
@@ -178,6 +198,25 @@ class FrameModel:
             u = u + d * self._lu.solve(d * (rhs - self.k_ff @ u))
             error = backward_error(u)
         return u, error
+
+    @property
+    def nodal_free(self) -> np.ndarray:
+        """Positions, within ``free``, of the free nodal dofs (all of them unless the rib is rigid)."""
+        return np.flatnonzero(self.free < self.first_multiplier)
+
+    def constrained_inverse(self) -> LinearOperator:
+        """v -> u: the nodal free displacements under nodal free forces v, the rigid rib's constraints
+        held (homogeneous). For an elastic rib, plainly K_ff^-1. Symmetric positive definite on the
+        constraints' null space, zero where v is orthogonal to it; for the eigen-solvers."""
+        nodal = self.nodal_free
+        d = self._scale
+
+        def apply(v: np.ndarray) -> np.ndarray:
+            rhs = np.zeros(self.free.size)
+            rhs[nodal] = np.ravel(v)
+            return (d * self._lu.solve(d * rhs))[nodal]
+
+        return LinearOperator((nodal.size, nodal.size), matvec=apply, dtype=float)
 
     @property
     def _k_norm(self) -> float:
@@ -222,8 +261,11 @@ def build_frame(
     tie_EA_kN: float | None = None,
     shear_deformation: bool = False,
     estimate_condition: bool = True,
+    axially_rigid: bool = False,
 ) -> FrameModel:
     """Assemble and factorise the frame model of ``axis`` with the given support system.
+
+    ``axially_rigid`` holds every element's length by a constraint (module docstring).
 
     ``estimate_condition`` False skips the condition estimate (and its warning) unless a verification
     needs it: for the many trial axes of form finding, whose final axis is analysed afresh.
@@ -255,6 +297,8 @@ def build_frame(
     EA = E * mean(section.area_m2)
     EI = E * mean(section.second_moment_m4)
     GAs = mean(section.shear_modulus_kN_m2) * mean(section.shear_area_m2)
+    if axially_rigid:  # the constraint holds the length: no axial stiffness term at all
+        EA = np.zeros_like(EI)
     k_local = _local_stiffness(length, EA, EI, GAs, shear_deformation)
     t = rotation_matrices(cos, sin)
     k_global = np.matmul(np.matmul(t.transpose(0, 2, 1), k_local), t)  # batched T^T k T
@@ -270,7 +314,18 @@ def build_frame(
         rows = np.concatenate([rows, np.repeat(tie, 4)])
         cols = np.concatenate([cols, np.tile(tie, 4)])
         data = np.concatenate([data, kt.ravel()])
-    stiffness = sp.csc_matrix(sp.coo_matrix((data, (rows, cols)), shape=(ndof, ndof)))
+    size = ndof
+    if axially_rigid:
+        # constraint row e: the elongation of element e along its chord, in the rows and columns after
+        # the nodal dofs (C and its transpose)
+        coeff = np.stack([-cos, -sin, cos, sin], axis=1)
+        ends = dofs[:, [0, 1, 3, 4]]
+        multiplier = ndof + np.repeat(nodes, 4)
+        rows = np.concatenate([rows, multiplier, ends.ravel()])
+        cols = np.concatenate([cols, ends.ravel(), multiplier])
+        data = np.concatenate([data, coeff.ravel(), coeff.ravel()])
+        size = ndof + ne
+    stiffness = sp.csc_matrix(sp.coo_matrix((data, (rows, cols)), shape=(size, size)))
 
     right = 3 * (n - 1)
     fixed_dofs = {
@@ -280,12 +335,28 @@ def build_frame(
         SupportKind.TIED: [0, 1, right + 1],
     }[kind]
     fixed = np.asarray(fixed_dofs)
-    free = np.setdiff1d(np.arange(ndof), fixed)
+    free = np.setdiff1d(np.arange(size), fixed)
     kff = stiffness[free][:, free].tocsc()
+    nodal = free < ndof
     diag = kff.diagonal()
-    if not np.all(diag > 0):
+    if axially_rigid:
+        # scale as if the element had an axial stiffness equal to its transverse one (12 E I / L^3)
+        standin = np.zeros(size)
+        axial = 12.0 * EI / length**3
+        for j in (0, 3):
+            np.add.at(standin, dofs[:, j], axial * cos**2)
+            np.add.at(standin, dofs[:, j + 1], axial * sin**2)
+        diag = diag + standin[free]
+    if not np.all(diag[nodal] > 0):
         raise AnalysisError(f"the {kind.value} arch has a free degree of freedom with no stiffness (a mechanism)")
-    scale = 1.0 / np.sqrt(diag)
+    scale = np.ones(free.size)
+    scale[nodal] = 1.0 / np.sqrt(diag[nodal])
+    if axially_rigid:
+        # a multiplier's row is scaled so that its largest scaled entry is 1
+        rows_c = abs(kff[~nodal][:, nodal] @ sp.diags(scale[nodal])).max(axis=1).toarray().ravel()
+        if not np.all(rows_c > 0):
+            raise AnalysisError(f"the rigid {kind.value} arch has an element whose both ends are held")
+        scale[~nodal] = 1.0 / rows_c
     scaled = sp.diags(scale) @ kff @ sp.diags(scale)
     try:
         lu = splu(scaled.tocsc())
@@ -299,6 +370,7 @@ def build_frame(
         raise AnalysisError(
             f"the {kind.value} arch is a mechanism or nearly so (pivot ratio {diag.min() / diag.max():.1e}); "
             "likely cause: a hinge on the line joining the springings"
+            + ("; a rigid rib cannot be straight between held ends" if axially_rigid else "")
         )
     model = FrameModel(
         axis=axis,
@@ -321,6 +393,7 @@ def build_frame(
         maps=None,
         _scale=scale,
         _lu=lu,
+        axially_rigid=axially_rigid,
     )
     return replace(model, maps=_response_maps(model, estimate_condition))
 
@@ -359,9 +432,18 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
     # the forward error of the maps, estimated by one more refinement step whose residual is computed in
     # extended precision (Higham, Accuracy and Stability of Numerical Algorithms, iterative refinement):
     # the correction's size is the error the double-precision solution still carries
-    residual = np.asarray(rhs, dtype=np.longdouble) - model.k_ff.astype(np.longdouble) @ np.asarray(x, np.longdouble)
-    correction, _ = model.solve_free(np.asarray(residual, dtype=float))
-    forward = float(np.abs(correction).max() / max(float(np.abs(x).max()), 1e-300))
+    # the correction is applied (mixed-precision refinement: with the residual in extended precision it
+    # converges to the correctly rounded solution while cond x eps < 1), and the last one's size is the
+    # error estimate: an upper bound of what the applied corrections leave
+    k_long = model.k_ff.astype(np.longdouble)
+    rhs_long = np.asarray(rhs, dtype=np.longdouble)
+    for _ in range(3):
+        residual = rhs_long - k_long @ np.asarray(x, np.longdouble)
+        correction, _ = model.solve_free(np.asarray(residual, dtype=float))
+        forward = float(np.abs(correction).max() / max(float(np.abs(x).max()), 1e-300))
+        x = x + correction
+        if forward <= 1e-13:
+            break
     if not error <= RESIDUAL_RTOL:
         raise AnalysisError(
             f"linear solve of the {model.kind.value} arch is not trustworthy: backward error {error:.2e} "
@@ -385,6 +467,10 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
     zero = np.zeros(1)
     t_u = _to_global(_thermal_local(model, unit, zero), model.cos, model.sin)[0]
     t_d = _to_global(_thermal_local(model, zero, unit), model.cos, model.sin)[0]
+    # a rigid rib's free thermal elongation enters through the constraints: (q, E) per metre of each
+    elongation = a[:, model.first_multiplier:]
+    thermal_u = (elongation @ (model.section.thermal_expansion_per_C * model.length) if model.axially_rigid
+                 else np.zeros(q))
     cond = _condition_estimate(model) if estimate_condition else None
     if cond is not None and cond > ILL_CONDITIONED:
         log.warning("the %s arch's stiffness is ill-conditioned (condition estimate %.1e): results may "
@@ -393,7 +479,7 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
     return ResponseMaps(
         element=element,
         dist=dist,
-        temperature_uniform=np.einsum("qem,em->q", element, t_u),
+        temperature_uniform=np.einsum("qem,em->q", element, t_u) + thermal_u,
         temperature_difference=np.einsum("qem,em->q", element, t_d),
         movement=movement,
         redundant=redundant,
@@ -402,6 +488,7 @@ def _response_maps(model: FrameModel, estimate_condition: bool = True) -> Respon
         condition_estimate=cond,
         backward_error=error,
         forward_error=forward,
+        elongation=elongation,
     )
 
 
@@ -505,7 +592,8 @@ def _point_global(model: FrameModel, loads: StationLoads) -> tuple[np.ndarray, n
 
 
 def load_vectors(model: FrameModel, loads: StationLoads) -> np.ndarray:
-    """Consistent global nodal load vectors (states, dofs), kN and kNm, temperature included."""
+    """Consistent global nodal load vectors (states, dofs), kN and kNm, temperature included; for a rigid
+    rib the constraint rows hold each element's free thermal elongation (m)."""
     f = np.zeros((loads.count, model.dof_count))
     local = _distributed_local(model, loads.dist)
     local += _thermal_local(model, loads.temperature_uniform_C, loads.temperature_difference_C)
@@ -513,6 +601,9 @@ def load_vectors(model: FrameModel, loads: StationLoads) -> np.ndarray:
     if loads.point_x.size:
         e, glob = _point_global(model, loads)
         np.add.at(f, (loads.point_state[:, None], model.element_dofs[e]), glob)
+    if model.axially_rigid:  # the constraints' right-hand sides: each element's free thermal elongation (m)
+        f[:, model.first_multiplier:] = np.outer(loads.temperature_uniform_C,
+                                                 model.section.thermal_expansion_per_C * model.length)
     return f
 
 

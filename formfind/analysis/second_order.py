@@ -211,6 +211,10 @@ def second_order(model: FrameModel, loads: StationLoads, tol: float = AXIAL_RTOL
     Raises:
         AnalysisError: if a state does not converge (at or beyond buckling) or a solve fails its check.
     """
+    if model.axially_rigid:
+        raise AnalysisError("second-order (P-Delta) analysis needs the rib's axial stiffness: set [analysis] "
+                            "axially_rigid = false, or [check] second_order = false and judge stability by the "
+                            "buckling factor")
     count = loads.count
     n = model.axis.count
     shape = (count, n)

@@ -327,8 +327,28 @@ def frame_reaction_rates(model: FrameModel, loads: StationLoads) -> np.ndarray:
             states.append(_element_state(model, length, dx / length, dy_moved / length, loads))
         (k_plus, f_plus), (k_minus, f_minus) = states
         dg = (f_plus - f_minus) - np.einsum("eab,keb->kea", k_plus - k_minus, u_e)  # (K, E, 6)
+        if model.axially_rigid:  # the constraints move too: C^T lambda in the nodal rows, C u in their own
+            d_c, d_length = _constraint_change(dx, dy, sign * eps)
+            dg -= u[:, model.first_multiplier:, None] * d_c[None]
+            d_rows = (np.outer(loads.temperature_uniform_C, model.section.thermal_expansion_per_C * d_length)
+                      - np.einsum("em,kem->ke", d_c, u_e))
+            out[:, :, np.arange(n - 1) + end] += np.einsum(
+                "qe,ke->kqe", model.maps.elongation[functionals], d_rows) / (2 * eps)
         out[:, :, np.arange(n - 1) + end] += np.einsum("qem,kem->kqe", a_elem, dg) / (2 * eps)
     return out
+
+
+def _constraint_change(dx: np.ndarray, dy: np.ndarray, step: float) -> tuple[np.ndarray, np.ndarray]:
+    """Change of each element's constraint row (E, 6) and chord length (E,) between dy + step and
+    dy - step (a rigid rib: the row is the elongation along the chord, (-c, -s, 0, c, s, 0))."""
+    rows, lengths = [], []
+    for moved in (dy + step, dy - step):
+        length = np.hypot(dx, moved)
+        c, s = dx / length, moved / length
+        zero = np.zeros_like(c)
+        rows.append(np.stack([-c, -s, zero, c, s, zero], axis=1))
+        lengths.append(length)
+    return rows[0] - rows[1], lengths[0] - lengths[1]
 
 
 def redundant_rows(model: FrameModel) -> list[int]:

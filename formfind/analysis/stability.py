@@ -113,13 +113,15 @@ def design_moments(case: Case, analysis: CaseAnalysis, response: Response,
     ratio = settings.imperfection_over_span
     buckled = {b.group: b for b in analysis.buckling}
     imperfect_models: dict[str, object] = {}
+    # P-Delta needs the rib's axial stiffness: a rigid rib is amplified instead
+    p_delta_possible = (settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None
+                        and not analysis.frame.axially_rigid)
     for group in dict.fromkeys(response.groups):
         b = buckled.get(group)
         states = [k for k, g in enumerate(response.groups) if g == group]
         if b is None or not ratio or not b.modes.size or not (np.isfinite(b.critical_factor) and b.critical_factor > 1):
             continue
-        p_delta = (b.critical_factor < settings.second_order_below
-                   and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None)
+        p_delta = b.critical_factor < settings.second_order_below and p_delta_possible
         chosen = _adverse(case, analysis, loads.select(states), b, ratio * analysis.axis.span_m, p_delta)
         if chosen is None:
             continue
@@ -135,7 +137,7 @@ def design_moments(case: Case, analysis: CaseAnalysis, response: Response,
             method[k] = "beyond buckling"
     usable = [k for k in low if method[k] != "beyond buckling"]
     solved: list[int] = []
-    if usable and settings.second_order is SecondOrderMethod.P_DELTA and analysis.frame is not None:
+    if usable and p_delta_possible:
         from formfind.analysis.second_order import second_order
 
         for group in dict.fromkeys(response.groups[k] for k in usable):

@@ -352,8 +352,9 @@ def _accuracy_row(accuracy, tolerance: float) -> CheckRow:
             f"{max(accuracy.digits, 0):.0f} good digits (condition estimate {accuracy.condition:.1e}, backward "
             f"error {accuracy.backward_error:.1e})")
     if not good:
-        note += ("; the stiffness is ill-conditioned (a huge area making the rib nearly rigid?): the results "
-                 "cannot be trusted to the digits reported")
+        note += ("; the stiffness is ill-conditioned (a huge area making the rib nearly rigid? [analysis] "
+                 "axially_rigid = true holds the lengths without it): the results cannot be trusted to the "
+                 "digits reported")
     return CheckRow("numerical accuracy", accuracy.forward_error, tolerance, "-", accuracy.forward_error / tolerance,
                     "all", "frame solve", None, None, PASS if good else FAIL, note)
 

@@ -137,6 +137,7 @@ class AnalysisSettings:
     """Options of the frame model and the buckling analysis (see `formfind.model.schema.ANALYSIS`)."""
 
     shear_deformation: bool = schema.default(schema.ANALYSIS, "shear_deformation")
+    axially_rigid: bool = schema.default(schema.ANALYSIS, "axially_rigid")
     buckling: bool = schema.default(schema.ANALYSIS, "buckling")
     accuracy: float = schema.default(schema.ANALYSIS, "accuracy")
     buckling_modes: int = schema.default(schema.ANALYSIS, "buckling_modes")

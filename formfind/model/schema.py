@@ -263,10 +263,15 @@ ANALYSIS = Table(
     "Options of the frame model and the buckling analysis.",
     (
         Key("shear_deformation", "boolean", "Include shear deformation in the frame elements.", default=False),
+        Key("axially_rigid", "boolean", "Hold every element's length (no rib shortening; the classical "
+            "inextensional assumption) by a constraint, not by a huge area, so the stiffness keeps its "
+            "conditioning; the area still gives the stresses. Second-order moments are then amplified by "
+            "1 / (1 - 1/alpha): a P-Delta solve needs the axial stiffness.",
+            default=False),
         Key("buckling", "boolean", "Compute the in-plane buckling factor of every combination.", default=True),
         Key("accuracy", "number", "Largest estimated relative error of the frame's forces (condition of the "
             "stiffness x backward error of the solve) the checks accept; a rib made nearly rigid by a huge area "
-            "passes it and fails (1e-6: six good digits, common practice, no source).", default=1e-6,
+            "(use axially_rigid instead) passes it and fails (1e-6: six good digits, common practice, no source).", default=1e-6,
             positive=True, maximum=0.1),
         Key("buckling_modes", "integer", "Number of buckling modes to find, 1..20.", default=4, minimum=1,
             maximum=20),

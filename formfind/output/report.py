@@ -263,7 +263,9 @@ def _method(case: Case, shape: ShapeResult | None, analysis: CaseAnalysis | None
         blocks.append(Paragraph(
             f"Engine: {engine} ({kind}). {analysis.axis.count} stations ({case.stations.spacing.value} spacing), "
             f"arc length {numbers.length(analysis.axis.length_m)} m. Shear deformation: "
-            f"{'on' if case.analysis.shear_deformation else 'off'}. Buckling: {buckling}."))
+            f"{'on' if case.analysis.shear_deformation else 'off'}. Rib shortening: "
+            f"{'none (axially rigid rib, lengths held by constraints)' if case.analysis.axially_rigid else 'included'}."
+            f" Buckling: {buckling}."))
         ratio = case.check.imperfection_over_span
         if analysis.buckling and ratio > 0:
             blocks.append(Paragraph(
