@@ -135,8 +135,9 @@ def natural_modes(model: FrameModel, mass_per_m: np.ndarray, point_mass: np.ndar
             larger = np.linalg.norm(found.real, axis=0) >= np.linalg.norm(found.imag, axis=0)
             vectors = np.zeros((free.size, values.size))
             vectors[nodal] = np.where(larger, found.real, found.imag)
-        else:
-            values, vectors = eigsh(k_ff, k=count, M=m_ff, sigma=0.0, which="LM", v0=start)
+        else:  # shift-invert at 0 on the model's own factors: no second factorisation of K
+            values, vectors = eigsh(k_ff, k=count, M=m_ff, sigma=0.0, which="LM", v0=start,
+                                    OPinv=model.constrained_inverse())
     except (ArpackNoConvergence, RuntimeError) as exc:
         raise AnalysisError(f"natural frequencies: the eigen-solver failed ({exc})") from None
     order = np.argsort(values)

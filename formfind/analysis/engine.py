@@ -182,8 +182,11 @@ def analyse(
     section = case.section.at(axis)
     loads = build_load_set(case.cases, case.combinations, axis, section)
     want_buckling = case.analysis.buckling if buckling is None else buckling
-    needs_frame = case.supports.kind is not SupportKind.THREE_HINGED or want_buckling
-    model = frame_model(case, axis, section) if needs_frame else None
+    statically_indeterminate = case.supports.kind is not SupportKind.THREE_HINGED
+    needs_frame = statically_indeterminate or want_buckling
+    # a three-hinged arch's frame serves only the eigen-analyses (its forces come from exact statics):
+    # no condition estimate is reported for it, so none is made
+    model = frame_model(case, axis, section, estimate_condition=statically_indeterminate) if needs_frame else None
     combos = respond(case, axis, loads.combinations, model, displacements)
     by_case = respond(case, axis, loads.cases, model, displacements)
     buckling: tuple[BucklingResult, ...] = ()

@@ -261,23 +261,18 @@ def solve(axis: Axis, EI_lat: np.ndarray, GJ: np.ndarray, axial: np.ndarray, r0_
     dx, dy = np.diff(axis.x), np.diff(axis.y)
     length = np.hypot(dx, dy)
     ends = {0: (dx[0] / length[0], dy[0] / length[0]), n - 1: (dx[-1] / length[-1], dy[-1] / length[-1])}
-    rows, cols, vals = [], [], []
-    col = 0
-    for dof in free:
-        node, kind = divmod(int(dof), m)
-        if restraints.springings == "fork" and node in ends and kind in (1, 2):
-            if kind == 2:
-                continue
-            c, s = ends[node]
-            rows += [m * node + 1, m * node + 2]  # the rotation about the normal: theta = psi (-s, c)
-            cols += [col, col]
-            vals += [-s, c]
-        else:
-            rows.append(int(dof))
-            cols.append(col)
-            vals.append(1.0)
-        col += 1
-    T = sp.csr_matrix((vals, (rows, cols)), shape=(size, col))
+    node, kind = np.divmod(free, m)
+    forked = (restraints.springings == "fork") & np.isin(node, list(ends)) & np.isin(kind, (1, 2))
+    kept = free[~(forked & (kind == 2))]  # a fork keeps one rotation per springing, in its column 1
+    col_of = np.arange(kept.size)
+    plain = ~np.isin(kept, free[forked])
+    rows, cols, vals = [kept[plain]], [col_of[plain]], [np.ones(int(plain.sum()))]
+    for dof, col in zip(kept[~plain], col_of[~plain], strict=True):
+        c, s = ends[int(dof) // m]
+        rows.append(np.array([dof, dof + 1]))  # the rotation about the normal: theta = psi (-s, c)
+        cols.append(np.array([col, col]))
+        vals.append(np.array([-s, c]))
+    T = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(size, kept.size))
     k = (T.T @ K @ T).tocsc()
     g = -(T.T @ KG @ T).tocsc()
     k = 0.5 * (k + k.T)

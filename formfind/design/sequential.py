@@ -208,7 +208,8 @@ def search(case: Case, axis: Axis, section: Section, limits: Limits) -> Outcome:
     if not history:
         history.append(Iteration(1, current, 0.0, 0.0))
     optimum = current
-    axis, response, loads, spent = fairest(case, limits, axis, section, response, loads, model, current, history)
+    axis, response, loads, spent = fairest(case, limits, axis, section, response, loads, model, current, history,
+                                           moments)
     return Outcome(axis, response, loads, certificate, tuple(history), total_time + spent, optimum)
 
 
@@ -221,15 +222,17 @@ def _certified(case: Case, current: float, certificate: ProgramSolution, states:
 
 
 def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: Response, loads: StationLoads,
-            model: FrameModel | None, optimum: float, history: list[Iteration]) -> tuple[Axis, Response, StationLoads, float]:
+            model: FrameModel | None, optimum: float, history: list[Iteration],
+            moments: MomentModel | None = None) -> tuple[Axis, Response, StationLoads, float]:
     """Among the axes within the fairness tolerance of the optimum, the fairest the exact engine confirms
     (``[find] fair``, where the optimum is not fair already; otherwise the smallest slack only settles
     a non-unique optimum). Each step solves for the fairest axis of the program linearised at the
     current one, then walks towards it, halving the step until the exact objective stays within the
     limit (the set of admissible axes of the linear model is convex, so every point on the way is
     admissible to first order, and the model's error falls with the square of the step). Where the
-    exact objective overshoots, the next linear program aims lower by the overshoot. Returns the
-    axis, its response and loads, and the time spent in the solver (s)."""
+    exact objective overshoots, the next linear program aims lower by the overshoot. ``moments``: the
+    linear model at ``axis`` where the caller has it. Returns the axis, its response and loads, and the
+    time spent in the solver (s)."""
     f = case.find
     if f.objective is Objective.RMS:  # a strictly convex objective: its optimum is already definite
         return axis, response, loads, 0.0
@@ -242,7 +245,8 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
     bends = fairness_matrix(axis.x) if axis.count > 3 else second_differences(axis.x)
     roughness = float(np.sum((bends @ axis.y) ** 2))
     for _ in range(FAIR_STEPS):
-        moments = linearise(case, axis, section, response, loads, model)
+        if moments is None:
+            moments = linearise(case, axis, section, response, loads, model)
         data = program_data(case, limits, axis, section, response, moments, None)
         y_fair, spent = smoothest_within(limits.structure, data, aim, None, axis.y)
         elapsed += spent
@@ -267,7 +271,12 @@ def fairest(case: Case, limits: Limits, axis: Axis, section: Section, response: 
                 history.append(Iteration(history[-1].number + 1, value, t * float(np.abs(direction).max()),
                                          float(np.abs(data.moments(y) - trial.M).max())))
                 axis, response, loads, model = candidate, trial, trial_loads, trial_model
+                moments = None
                 break
         else:
             break  # no step towards the fairer axis keeps within the limit and makes it fairer: stay
+        if halving == 0:
+            # the whole step held: the axis is the linear model's fairest and the exact objective keeps
+            # within the limit; a program at the new axis could only correct the model's second-order error
+            break
     return axis, response, loads, elapsed
