@@ -341,3 +341,20 @@ def test_explore_command_fails_before_listening_on_a_bad_case(tmp_path):
     r = subprocess.run([sys.executable, "-m", "formfind", "explore", str(bad), "--port", "70000"],
                        capture_output=True, text=True, timeout=60)
     assert r.returncode == 2 and "--port" in r.stderr
+
+
+def test_answers_warm_started_from_the_last_one_equal_fresh_answers():
+    """Each answer's programs start from the last answer's bases (`remembered_bases`): on the shipped
+    footbridge a dragged rise gives the same axis and objective as a fresh page (measured identical;
+    1e-9 allows for the solver's round-off)."""
+    from dataclasses import replace
+
+    path = Path(__file__).resolve().parents[1] / "cases" / "footbridge.toml"
+    dragged = Explorer(path)
+    start = dragged.start
+    for factor in (1.0, 1.02, 0.98):
+        settings = replace(start, rise_m=start.rise_m * factor)
+        warm, fresh = dragged.solve(settings), Explorer(path).solve(settings)
+        assert warm.shape.value == pytest.approx(fresh.shape.value, rel=1e-9)
+        np.testing.assert_allclose(warm.analysis.axis.y, fresh.analysis.axis.y, atol=1e-9 * start.span_m)
+    assert dragged._bases  # the programs did leave their bases

@@ -17,14 +17,22 @@ program of a few thousand rows costs milliseconds. HiGHS (simplex) returns verte
 takes a basis to warm-start a program of the same size; Clarabel (interior point) returns the
 analytic centre of a face. Solvers never print: HiGHS's banner, written from C++ to file descriptor
 1 whatever its options say, is sent to /dev/null.
+
+A caller that solves a run of nearby problems (the live page: each answer re-finds the axis after a
+small change) can hold their bases across calls with `remembered_bases`: inside it, a program solved by
+HiGHS without a basis of its own starts from the last optimal basis of a program of the same shape.
+The LP's optimum is the same (a warm start changes the path, not the answer, up to the solver's
+tolerance), though a degenerate LP may end on another optimal vertex.
 """
 
 from __future__ import annotations
 
 import contextlib
+import contextvars
 import os
 import sys
 import time
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -98,6 +106,21 @@ def silent_stdout():
         os.close(saved)
 
 
+_REMEMBERED: contextvars.ContextVar[dict | None] = contextvars.ContextVar("formfind_bases", default=None)
+
+
+@contextlib.contextmanager
+def remembered_bases(bases: dict) -> Iterator[None]:
+    """Within the block, HiGHS programs without a basis of their own start from the last optimal basis
+    of a program of the same shape kept in ``bases`` (the caller's dict, kept across blocks), and
+    leave theirs there. Scoped to the current thread or task."""
+    token = _REMEMBERED.set(bases)
+    try:
+        yield
+    finally:
+        _REMEMBERED.reset(token)
+
+
 def solve_convex(problem: ConvexProblem, solver: Solver = Solver.HIGHS, warm_basis: object | None = None) -> ConvexSolution:
     """Solve ``problem`` with HiGHS or Clarabel (``AUTO``: HiGHS). Quadratic programs always go to
     Clarabel: HiGHS's active-set QP stops with an error on the form-finding QPs, whose Hessian is
@@ -108,7 +131,14 @@ def solve_convex(problem: ConvexProblem, solver: Solver = Solver.HIGHS, warm_bas
     if solver is Solver.AUTO or problem.P is not None:
         solver = Solver.HIGHS if problem.P is None else Solver.CLARABEL
     if solver is Solver.HIGHS:
-        return _highs(problem, warm_basis)
+        bases = _REMEMBERED.get()
+        if bases is None or problem.P is not None:
+            return _highs(problem, warm_basis)
+        shape = (problem.size, problem.b_ub.size, problem.b_eq.size)
+        solution = _highs(problem, warm_basis if warm_basis is not None else bases.get(shape))
+        if solution.basis is not None:
+            bases[shape] = solution.basis
+        return solution
     return _clarabel(problem)
 
 
@@ -171,6 +201,10 @@ def _highs(problem: ConvexProblem, warm_basis: object | None) -> ConvexSolution:
         kind = SolveStatus.UNBOUNDED if status == ms.kUnbounded else SolveStatus.INFEASIBLE
     else:
         kind = SolveStatus.FAILED
+    if kind is SolveStatus.FAILED and warm_basis is not None:
+        # a basis of another program of the same shape can leave HiGHS with no status at all ("Not
+        # Set", seen on a form-finding certificate): solve again from scratch
+        return _highs(problem, None)
     if kind is not SolveStatus.OPTIMAL or not solution.value_valid:
         return ConvexSolution(kind, None, float("nan"), None, None, None, None, "HiGHS", elapsed, text)
     z = np.asarray(solution.col_value, dtype=float)

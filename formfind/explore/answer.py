@@ -2,7 +2,8 @@
 
 `Explorer` holds one case file (its table and validated `Case`) and answers the page: `answer` for the
 drawing and the numbers, `toml` for the case file of the current settings, `dxf` for its drawing.
-The last few answers are kept (dragging back over a value answers at once). Nothing here computes
+The last few answers are kept (dragging back over a value answers at once), and each answer's linear
+programs start from the simplex bases the previous one left (`remembered_bases`). Nothing here computes
 mechanics: it calls `find_shape`, `analyse` and `check`, exactly as `formfind run` does.
 
 Units in the JSON: m, kN, kNm; keys carry them. Non-finite numbers are null.
@@ -71,6 +72,7 @@ class Explorer:
         self.governing = list(governing_groups(self.case))
         self.start = initial_settings(self.table, self.case)
         self._kept: OrderedDict[PageSettings, Solved] = OrderedDict()
+        self._bases: dict = {}  # optimal simplex bases of the last answer's programs, by shape
         self.busy = threading.RLock()  # one computation at a time; callers may hold it across calls
 
     # ------------------------------------------------------------------------------ computing
@@ -91,12 +93,14 @@ class Explorer:
                 return self._kept[settings]
             from formfind.analysis.engine import analyse
             from formfind.design.check import check
+            from formfind.design.convex import remembered_bases
             from formfind.design.shape import find_shape
 
             t0 = time.perf_counter()
             table = self.table_for(settings)
             case = parse_case(table, self.file)
-            shape = find_shape(case)
+            with remembered_bases(self._bases):  # the last answer's programs warm-start this one's
+                shape = find_shape(case)
             if shape.section != case.section:
                 case = replace(case, section=shape.section)
             analysis = analyse(case, axis=shape.axis)
