@@ -508,8 +508,8 @@ def _eccentricity_row(limit_kind, response, M, N, sec, pattern, terms, x, note) 
 
 ELASTIC_ROWS = ("compressive stress", "tensile stress", "eccentricity within the kern", "eccentricity within the boundary")
 UNREINFORCED_NOTE = ("information only: an unreinforced ring cracks instead of taking tension, so it is judged by its "
-                     "lines of thrust (Heyman's safe theorem) and its collapse mechanism; crushing is not yet judged "
-                     "by a thrust-line rule: compare this elastic stress with the strength yourself")
+                     "lines of thrust (Heyman's safe theorem) and its collapse mechanism (with crushing at the hinges "
+                     "where [check] crushing_strength_MPa is given)")
 
 
 def _deflection_rows(case: Case, moved: Deflections, span_m: float) -> list[CheckRow]:
@@ -681,14 +681,19 @@ def _unreinforced(case: Case, analysis: CaseAnalysis):
         permanent = [i for i, c in enumerate(case.cases) if c.action is ActionKind.PERMANENT]
         dead = _sum_states(analysis.loads.cases, [case.cases[i].name for i in permanent])
         live = analysis.loads.cases.select(analysis.loads.cases.group_states(settings.collapse_case))
+        strength = {"strength_kN_m2": settings.crushing_strength_kN_m2, "width_m": float(case.section.width_m)}
         if settings.fill_pressure:
-            collapse = _collapse_with_fill(case, analysis, dead, live, kind, hinge)
+            collapse = _collapse_with_fill(case, analysis, dead, live, kind, hinge, strength)
         else:
-            collapse = collapse_factors(axis, dead, live, depth, kind, hinge)
+            collapse = collapse_factors(axis, dead, live, depth, kind, hinge, **strength)
         worst = min(collapse, key=lambda c: c.factor)
         need = settings.min_collapse_factor
-        hinges = "; ".join(f"{h.x_m:.2f} m ({h.face})" for h in worst.hinges)
+        hinges = "; ".join(f"{h.x_m:.2f} m ({h.face}" + (f", crushed {1000 * h.crushed_depth_m:.0f} mm" if
+                                                        h.crushed_depth_m else "") + ")" for h in worst.hinges)
         base = "on the unfactored permanent cases"
+        if settings.crushing_strength_kN_m2 is not None:
+            base += (f"; masonry crushing at {settings.crushing_strength_kN_m2 / 1000:g} MPa over the ring's "
+                     f"{float(case.section.width_m):g} m width (hinges inside the faces by half the crushed depth)")
         if settings.fill_pressure:
             base += (f" and the fill's pressure (at rest, and {settings.passive_fraction:g} of the passive excess "
                      f"on the haunch away from the load; fill friction {settings.fill_friction_deg:g} deg)")
@@ -729,7 +734,8 @@ def _fill_pressure(case: Case, analysis: CaseAnalysis, passive_side: str) -> Sta
     return StationLoads.from_densities(total, group="fill pressure")
 
 
-def _collapse_with_fill(case: Case, analysis: CaseAnalysis, dead: StationLoads, live: StationLoads, kind, hinge):
+def _collapse_with_fill(case: Case, analysis: CaseAnalysis, dead: StationLoads, live: StationLoads, kind, hinge,
+                        strength: dict | None = None):
     """Collapse factors with the fill's pressure in the dead load: for each live position the passive excess
     acts on the haunch away from the live load's resultant (the side the ring sways into)."""
     from formfind.design.thrust import collapse_factors
@@ -750,7 +756,7 @@ def _collapse_with_fill(case: Case, analysis: CaseAnalysis, dead: StationLoads, 
         pressure = _fill_pressure(case, analysis, side)
         loaded = replace(dead, dist=dead.dist + pressure.dist)
         for k, result in zip(mine, collapse_factors(axis, loaded, live.select(mine), analysis.section.depth_m,
-                                                    kind, hinge), strict=True):
+                                                    kind, hinge, **(strength or {})), strict=True):
             results[k] = result
     return tuple(results)
 

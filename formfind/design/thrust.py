@@ -25,6 +25,15 @@ two linear inequalities per joint side. Hinged springings or a crown hinge add M
 Temperature and support movement cause no forces in a statically admissible no-tension ring: the
 ring accommodates them by cracking, which is Heyman's point. They are ignored here.
 
+Finite compressive strength f (collapse only, ``strength_kN_m2``). A joint carrying N over a width b
+crushes over a depth a = |N| / (f b) at the face it turns about (a rectangular stress block at f), so
+the line of thrust can only come within a / 2 of that face: |M| <= -N z - N^2 / (2 f b) (Heyman, *The
+Masonry Arch*, crushing at the hinges; Gilbert's and Harvey's ring models use the same block; from
+memory). The constraint is convex in (M, N), hence in the reactions and the load factor; it is
+solved by Kelley's cutting planes: LPs with tangents of N^2 / (2 f b) added where the line breaks the
+true constraint, until no joint breaks it by more than 1e-7 of the largest moment capacity. The first LP is
+the rigid-block one (N^2 term dropped), so the factors fall as f falls and tend to today's as f grows.
+
 The programs are built once with cvxpy parameters (disciplined parametrised programming) and re-solved
 for every load state, zone fraction or live-load position.
 """
@@ -290,6 +299,7 @@ class Hinge:
     station: int
     x_m: float
     face: str  # "intrados" or "extrados": where the line of thrust touches the ring
+    crushed_depth_m: float = 0.0  # finite strength: depth of the stress block |N| / (f b); the line passes at its middle
 
 
 @dataclass(frozen=True, eq=False)
@@ -340,12 +350,15 @@ class _CollapseProgram:
 
 def collapse_factors(axis: Axis, dead: StationLoads, live: StationLoads, depth_m: np.ndarray,
                      kind: SupportKind = SupportKind.FIXED, hinge_station: int | None = None,
-                     zone_fraction: float = 1.0) -> tuple[CollapseResult, ...]:
+                     zone_fraction: float = 1.0, strength_kN_m2: float | None = None,
+                     width_m: float = 1.0) -> tuple[CollapseResult, ...]:
     """The collapse load factor of each live state (one per position of a moving load) on ``dead``.
 
     ``dead`` holds one state (the unfactored permanent loads); ``live`` one state per position. The
     line of thrust must lie within ``zone_fraction`` of the ring (1: the whole ring, the rigid-block
-    collapse of a no-tension ring; below 1: a reduced zone).
+    collapse of a no-tension ring; below 1: a reduced zone). ``strength_kN_m2``: the masonry's
+    compressive strength (None: infinite, Heyman's assumption), over the ring's ``width_m``; the hinges
+    then sit inside the faces by half the crushed depth (module docstring).
 
     Raises:
         FormFindingError: never for an infeasible LP (that is a factor of 0, reported), only if the
@@ -357,6 +370,12 @@ def collapse_factors(axis: Axis, dead: StationLoads, live: StationLoads, depth_m
         raise ValueError("the dead load must be a single state")
     joints_dead = joint_forces(axis, dead, depth_m, kind, hinge_station)
     joints_live = joint_forces(axis, live, depth_m, kind, hinge_station)
+    if strength_kN_m2 is not None:
+        if not strength_kN_m2 > 0 or not width_m > 0:
+            raise ValueError("a compressive strength and a width must be positive")
+        return tuple(_crushing_collapse(axis, joints_dead, joints_live, k, live.names[k],
+                                        zone_fraction * joints_dead.half_depth, strength_kN_m2 * width_m)
+                     for k in range(live.count))
     program = _CollapseProgram(joints_dead, zone_fraction)
     out = []
     for k in range(live.count):
@@ -380,6 +399,90 @@ def collapse_factors(axis: Axis, dead: StationLoads, live: StationLoads, depth_m
         axial = joints_dead.N[0] + joints_dead.A_N @ r + lam * joints_live.N[k]
         out.append(CollapseResult(live.names[k], factor, _hinges(program, axis), status, moment, axial))
     return tuple(out)
+
+
+CUTTING_PLANE_ROUNDS = 60  # Kelley's method converges in a handful on the rings met; this bounds it
+CRUSHING_TOLERANCE = 1e-7  # of the largest moment capacity -N z: how far the line may break the true
+# constraint (the LP solver's own feasibility tolerance is of this order: a finer one cannot be met)
+
+
+def _crushing_collapse(axis: Axis, dead: JointForces, live: JointForces, k: int, name: str, z: np.ndarray,
+                       fb: float) -> CollapseResult:
+    """The collapse factor of live state ``k`` with finite strength (``fb`` = f b, kN/m): Kelley's
+    cutting planes on |M| + N z + N^2 / (2 f b) <= 0 at every joint side (module docstring).
+
+    Variables (Rx, Ry, Mz, lambda); rows per cut: +-M(x) + N(x) (z + N_k / fb) <= N_k^2 / (2 fb), the
+    tangent at N_k of the convex term (N_k = 0: the rigid-block row)."""
+    import scipy.sparse as sp
+
+    from formfind.design.convex import ConvexProblem, solve_convex
+    from formfind.enums import Solver
+
+    n = z.size
+    sides = ((dead.N[0], live.N[k]), (dead.N_left[0], live.N_left[k]))
+    m_const = dead.M[0]
+    m_coeff = np.column_stack([dead.A_M, live.M[k]])  # (joints, 4): M = m_const + m_coeff @ x
+    n_const = [d for d, _ in sides]
+    n_coeff = [np.column_stack([dead.A_N, lv]) for _, lv in sides]
+    tangents: list[list[np.ndarray]] = [[np.zeros(n)], [np.zeros(n)]]  # per side: the N_k of each round of cuts
+    active: list[list[np.ndarray]] = [[np.ones(n, dtype=bool)], [np.ones(n, dtype=bool)]]
+    equality = sp.csr_matrix((0, 4))
+    b_eq = np.zeros(0)
+    if dead.hinges:
+        h = list(dead.hinges)
+        equality = sp.csr_matrix(m_coeff[h])
+        b_eq = -m_const[h]
+    lower = np.array([-np.inf, -np.inf, -np.inf, 0.0])
+    upper = np.array([np.inf, np.inf, np.inf, NO_COLLAPSE])
+    rounds = 0
+    for rounds in range(1, CUTTING_PLANE_ROUNDS + 1):  # noqa: B007 - the count is kept
+        rows, rhs, tags = [], [], []
+        for side in (0, 1):
+            for nk, keep in zip(tangents[side], active[side], strict=True):
+                slope = z + nk / fb  # (joints,)
+                const = nk**2 / (2.0 * fb)
+                for sign, face in ((1.0, "extrados"), (-1.0, "intrados")):
+                    a = sign * m_coeff + slope[:, None] * n_coeff[side]
+                    b = const - sign * m_const - slope * n_const[side]
+                    rows.append(a[keep])
+                    rhs.append(b[keep])
+                    tags += [(int(i), face, side) for i in np.flatnonzero(keep)]
+        problem = ConvexProblem(np.array([0.0, 0.0, 0.0, -1.0]), sp.csr_matrix(np.vstack(rows)), np.concatenate(rhs),
+                                equality, b_eq, lower, upper)
+        solution = solve_convex(problem, Solver.HIGHS)
+        if not solution.solved:
+            return CollapseResult(name, 0.0, (), solution.status.value)
+        x = solution.z
+        moment = m_const + m_coeff @ x
+        axial = [n_const[s] + n_coeff[s] @ x for s in (0, 1)]
+        capacity = max(float(np.max(np.abs(a) * z)) for a in axial) or 1.0
+        broken = False
+        for side in (0, 1):
+            n_now = np.minimum(axial[side], 0.0)
+            excess = np.abs(moment) + axial[side] * z + n_now**2 / (2.0 * fb)
+            bad = excess > CRUSHING_TOLERANCE * capacity
+            if bad.any():
+                broken = True
+                tangents[side].append(n_now)
+                active[side].append(bad)
+        if not broken:
+            break
+    else:
+        raise FormFindingError(f"collapse with crushing for {name!r}: the cutting planes did not settle in "
+                               f"{CUTTING_PLANE_ROUNDS} rounds")
+    lam = float(x[3])
+    if lam >= 0.999 * NO_COLLAPSE:
+        return CollapseResult(name, float("inf"), (), solution.status.value)
+    duals = solution.mu
+    top = float(duals.max()) if duals.size else 0.0
+    faces: dict[int, tuple[str, int]] = {}
+    if top > 0:
+        for (i, face, side), d in zip(tags, duals, strict=True):
+            if d > HINGE_DUAL * top:
+                faces.setdefault(i, (face, side))
+    hinges = tuple(Hinge(i, float(axis.x[i]), face, float(-min(axial[side][i], 0.0) / fb))
+                   for i, (face, side) in sorted(faces.items()))
+    return CollapseResult(name, lam, hinges, solution.status.value, moment, axial[0])
 
 
 def _hinges(program: _CollapseProgram, axis: Axis) -> tuple[Hinge, ...]:

@@ -172,6 +172,7 @@ class CheckSettings:
     passive_fraction: float = schema.default(schema.CHECK, "passive_fraction")
     friction_coefficient: float = schema.default(schema.CHECK, "friction_coefficient")
     min_collapse_factor: float = schema.default(schema.CHECK, "min_collapse_factor")
+    crushing_strength_kN_m2: float | None = None
 
 
 @dataclass(frozen=True)
@@ -529,6 +530,7 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
             passive_fraction=check_raw["passive_fraction"],
             friction_coefficient=check_raw["friction_coefficient"],
             min_collapse_factor=check_raw["min_collapse_factor"],
+            crushing_strength_kN_m2=_crushing_strength(check_raw, rib, file),
         ),
         study=StudySettings(*(tuple(study_raw[k] or ()) for k in ("rise_over_span", "span_m", "depth_m"))),
         long_term=LongTermSettings(**long_term_raw),
@@ -538,6 +540,19 @@ def _parse_case(data: dict[str, Any], file: str) -> Case:
         document=Document(meta["project"], meta["job_number"], meta["revision"], meta["drawn_by"],
                           meta["checked_by"], meta["issue_date"] or ""),
     )
+
+
+def _crushing_strength(check: dict[str, Any], rib: Section, file: str) -> float | None:
+    strength = check["crushing_strength_MPa"]
+    if strength is None:
+        return None
+    if not (check["unreinforced"] and check["collapse_case"]):
+        raise CaseError(file, "check.crushing_strength_MPa", "applies to the collapse of an unreinforced ring "
+                        "(unreinforced = true and a collapse_case)")
+    if rib.width_m is None:
+        raise CaseError(file, "check.crushing_strength_MPa", "needs section.width_m (the width the stress block "
+                        "spreads over)")
+    return strength * KN_M2_PER_MPA
 
 
 def _fill_pressure(check: dict[str, Any], cases: tuple[LoadCase, ...], file: str) -> bool:

@@ -439,6 +439,10 @@ CHECK = Table(
             positive=True, maximum=2.0),
         Key("min_collapse_factor", "number", "Least collapse load factor on collapse_case.", default=1.0,
             positive=True),
+        Key("crushing_strength_MPa", "number", "Compressive strength of the masonry in the collapse analysis: a "
+            "hinge turns about the middle of a stress block |N| / (strength x width) deep at its face, so weaker "
+            "masonry collapses sooner; not given: infinite (the rigid-block assumption). Take it from tests or "
+            "the code you assess to.", "MPa", default=None, positive=True, maximum=200.0),
     ),
 )
 

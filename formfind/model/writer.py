@@ -151,6 +151,7 @@ def case_table(case) -> dict[str, Any]:
     c = case.check
     _settings(table, schema.CHECK, c, {"compression_limit_MPa": _mpa(c.compression_limit_kN_m2),
                                        "tension_limit_MPa": _mpa(c.tension_limit_kN_m2),
+                                       "crushing_strength_MPa": _mpa(c.crushing_strength_kN_m2),
                                        "patterned_factors": dict(c.patterned_factors) or None})
     _settings(table, schema.LATERAL, case.lateral, {"brace_x_m": list(case.lateral.brace_x_m) or None})
     _settings(table, schema.LONG_TERM, case.long_term)

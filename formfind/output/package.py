@@ -174,9 +174,11 @@ def diagrams(case: Case, analysis: CaseAnalysis, checks=None) -> list[Diagram]:
         worst = min(checks.collapse, key=lambda c: c.factor)
         if worst.moment_kNm is not None:
             line = thrust_line(axis.x, axis.y, axis.theta, worst.moment_kNm, worst.axial_kN)
-            hinges = [(h.x_m, h.face) for h in worst.hinges]
+            hinges = [(h.x_m, h.face, h.crushed_depth_m) for h in worst.hinges]
+            where = ("passes through the middle of the crushed zone at each of the" if any(h[2] for h in hinges)
+                     else "touches the faces at the")
             out.append(Diagram("fig-collapse", f"The ring at collapse under {worst.state}: the line of thrust at "
-                               f"the collapse factor {numbers.for_reading(worst.factor, 3)} touches the faces at the "
+                               f"the collapse factor {numbers.for_reading(worst.factor, 3)} {where} "
                                f"{len(hinges)} hinges of the mechanism.",
                                plots.plot_collapse(axis, analysis.section.depth_m, line, hinges, worst.factor,
                                                    worst.state)))

@@ -373,16 +373,33 @@ def plot_deflected(axis: Axis, ux: np.ndarray, uy: np.ndarray, state: str, at_x_
 
 def plot_collapse(axis: Axis, depth_m: np.ndarray, line: np.ndarray, hinges, factor: float, state: str, ax=None):
     """A no-tension ring at collapse: the ring, the line of thrust at the collapse factor and the
-    hinges of the mechanism on the intrados or extrados (``hinges``: (x m, face) pairs)."""
+    hinges of the mechanism on the intrados or extrados (``hinges``: (x m, face, crushed depth m)
+    triples; with a finite strength the crushed zone is drawn across the joint from the face, and the
+    hinge at its middle, where the line of thrust passes)."""
     ax = ax or new_axes()
     outline = _rib(ax, axis, depth_m)
     ax.plot(axis.x, axis.y, color="#999999", lw=0.7, ls=":", label="axis")
     ax.plot(line[:, 0], line[:, 1], color=PALETTE[1], lw=1.4, label="line of thrust at collapse")
-    for x_h, face in hinges:
+    depth = np.broadcast_to(np.asarray(depth_m, dtype=float), axis.x.shape)
+    crushed_any = False
+    for x_h, face, crushed in hinges:
         i = int(np.argmin(np.abs(axis.x - x_h)))
-        point = (axis.extrados if face == "extrados" else axis.intrados)(depth_m)[i]
-        ax.plot(point[0], point[1], "o", ms=8, mfc="white", mec="black", mew=1.4)
-    ax.plot([], [], "o", ms=8, mfc="white", mec="black", mew=1.4, label="hinge (where the line touches a face)")
+        sign = 1.0 if face == "extrados" else -1.0
+        centre = np.array([axis.x[i], axis.y[i]])
+        normal = axis.normal[i]
+        face_point = centre + sign * 0.5 * depth[i] * normal
+        if crushed > 0:
+            crushed_any = True
+            inner = centre + sign * (0.5 * depth[i] - crushed) * normal
+            ax.plot([face_point[0], inner[0]], [face_point[1], inner[1]], color="#111111", lw=5.0,
+                    solid_capstyle="butt", zorder=5)  # over the marker: a few centimetres at the drawing's scale
+        point = centre + sign * (0.5 * depth[i] - 0.5 * crushed) * normal
+        ax.plot(point[0], point[1], "o", ms=8, mfc="white", mec="black", mew=1.4, zorder=4)
+    label = ("hinge (the middle of the crushed zone, where the line passes)" if crushed_any
+             else "hinge (where the line touches a face)")
+    ax.plot([], [], "o", ms=8, mfc="white", mec="black", mew=1.4, label=label)
+    if crushed_any:
+        ax.plot([], [], color="#111111", lw=5.0, label="crushed zone at the strength (|N| / (f b) deep)")
     _frame_arch(ax, outline, axis.span_m)
     ax.set_title(f"Collapse of the ring under {state}: load factor {factor:.3g}", fontsize=10)
     _legend_below(ax)

@@ -71,12 +71,14 @@ def _virtual_work_factor(axis, dead, live, depth, hinges):
     """Collapse factor of the four-hinge mechanism by virtual work (independent of the LP).
 
     Blocks: ground | h1-h2 rotating about P1 | h2-h3 about the instantaneous centre I | h3-h4 about
-    P4 | ground. Hinge points sit on the face where the line of thrust touches.
+    P4 | ground. Hinge points sit on the face where the line of thrust touches, or inside it by half
+    the hinge's crushed depth (finite strength: the block turns about the middle of its stress block).
     """
     pts = []
     for h in hinges:
         sign = 1.0 if h.face == "extrados" else -1.0
-        pts.append(np.array([axis.x[h.station], axis.y[h.station]]) + sign * 0.5 * depth * axis.normal[h.station])
+        reach = 0.5 * depth - 0.5 * h.crushed_depth_m
+        pts.append(np.array([axis.x[h.station], axis.y[h.station]]) + sign * reach * axis.normal[h.station])
     p1, p2, p3, p4 = pts
     # I = intersection of the lines P1P2 and P4P3
     d1, d2 = p2 - p1, p3 - p4
@@ -128,6 +130,46 @@ def test_collapse_factor_equals_the_virtual_work_of_its_own_mechanism(load_x):
     upper = _virtual_work_factor(axis, dead, live, depth, res.hinges)
     # 1e-6: both are exact for the same discrete ring; only the LP's own tolerance separates them
     assert upper == pytest.approx(res.factor, rel=1e-6)
+
+
+@pytest.mark.parametrize("strength", [2e4, 5e3, 1e3])
+def test_with_finite_strength_the_collapse_factor_is_the_virtual_work_of_the_inset_mechanism(strength):
+    """Finite compressive strength f (kN/m2): the hinges turn about the middle of a stress block
+    |N| / (f b) deep at the face (Heyman, *The Masonry Arch*; from memory). The uniqueness theorem
+    still holds for the ring with its faces moved in: the mechanism through the inset hinge points,
+    by virtual work, gives the program's factor (1e-6: the cutting planes stop at 1e-7 of the moment
+    capacity). Weaker masonry collapses sooner."""
+    span, rise, depth = 8.0, 2.5, 0.3
+    curve = CircularSegment(Chord(span), rise)
+    axis = Axis.from_curve(curve, place_stations(curve, 161))
+    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6, unit_weight_kN_m3=20.0).at(axis)
+    dead = voussoir_weight(axis, depth, 1.0, 20.0)
+    live = case_station_loads(LoadCase("p", (PointLoad(2.2 + 1e-3, 10.0),)), axis, sec)
+    rigid = collapse_factors(axis, dead, live, sec.depth_m)[0]
+    res = collapse_factors(axis, dead, live, sec.depth_m, strength_kN_m2=strength)[0]
+    assert 0 < res.factor < rigid.factor
+    assert len(res.hinges) == 4
+    for h in res.hinges:  # the block's depth is the hinge's thrust over f b
+        assert h.crushed_depth_m == pytest.approx(-res.axial_kN[h.station] / strength, rel=1e-6)
+        assert 0 < h.crushed_depth_m < depth
+    upper = _virtual_work_factor(axis, dead, live, depth, res.hinges)
+    assert upper == pytest.approx(res.factor, rel=1e-6)
+
+
+def test_as_the_strength_grows_the_collapse_factor_tends_to_the_rigid_block_one_as_one_over_f():
+    """The stress block's depth is N / (f b), so the loss of factor falls as 1 / f: doubling a large f
+    halves it (within 1 %), and at 1e6 kN/m2 the factor is the rigid-block one within 1e-3."""
+    span, rise, depth = 8.0, 2.5, 0.3
+    curve = CircularSegment(Chord(span), rise)
+    axis = Axis.from_curve(curve, place_stations(curve, 81))
+    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6, unit_weight_kN_m3=20.0).at(axis)
+    dead = voussoir_weight(axis, depth, 1.0, 20.0)
+    live = case_station_loads(LoadCase("p", (PointLoad(2.2 + 1e-3, 10.0),)), axis, sec)
+    rigid = collapse_factors(axis, dead, live, sec.depth_m)[0].factor
+    loss = [rigid - collapse_factors(axis, dead, live, sec.depth_m, strength_kN_m2=f)[0].factor for f in (1e5, 2e5)]
+    assert loss[0] / loss[1] == pytest.approx(2.0, rel=0.01)
+    far = collapse_factors(axis, dead, live, sec.depth_m, strength_kN_m2=1e6)[0].factor
+    assert far == pytest.approx(rigid, rel=1e-3)
 
 
 def test_geometric_factor_is_depth_over_the_thinnest_zone():
