@@ -71,9 +71,12 @@ def _used_cases(case: Case) -> set[str]:
 
 
 def loads_move(case: Case) -> bool:
-    """True if a governing load's densities change with the shape (`moves_with_shape`)."""
+    """True if a governing load's densities change with the shape (`moves_with_shape`), or a load is spread
+    through the fill (its width follows the depth of fill over the extrados; the sequential method's
+    linear model holds it as it is, and every exact analysis builds it afresh)."""
     used = _used_cases(case)
-    return any(moves_with_shape(ld) for lc in case.cases if lc.name in used for ld in lc.loads)
+    return any(moves_with_shape(ld) or getattr(ld, "spread", None) is not None
+               for lc in case.cases if lc.name in used for ld in lc.loads)
 
 
 def kink_stations(case: Case, x: np.ndarray) -> tuple[int, ...]:
@@ -81,7 +84,8 @@ def kink_stations(case: Case, x: np.ndarray) -> tuple[int, ...]:
     (the funicular polygon turns at a point load), so its tangents are fitted on either side."""
     used = _used_cases(case)
     span = float(x[-1] - x[0])
-    points = [ld.x_m for lc in case.cases if lc.name in used for ld in lc.loads if isinstance(ld, PointLoad)]
+    points = [ld.x_m for lc in case.cases if lc.name in used for ld in lc.loads
+              if isinstance(ld, PointLoad) and ld.spread is None]  # a spread load reaches the ring without a kink
     out = set()
     for px in points:
         i = int(np.argmin(np.abs(x - px)))

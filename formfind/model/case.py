@@ -59,6 +59,7 @@ from formfind.model.loads import (
     AxleTrain,
     Combination,
     FillLoad,
+    FillSpread,
     LineLoad,
     Load,
     LoadCase,
@@ -749,7 +750,8 @@ def _load(table: Any, geometry: Geometry, file: str, path: str) -> Load:
     v = schema.read_table(table, schema.LOAD_TYPES[kind], file, path, extra=("type",))
     span = geometry.span_m
     if kind == "point":
-        return PointLoad(_within(v["x_m"], span, file, f"{path}.x_m"), v["down_kN"], v["right_kN"])
+        return PointLoad(_within(v["x_m"], span, file, f"{path}.x_m"), v["down_kN"], v["right_kN"],
+                         None if v["spread_slope"] is None else FillSpread(v["spread_slope"]))
     if kind in ("line", "pressure"):
         a = 0.0 if v["from_x_m"] is None else _within(v["from_x_m"], span, file, f"{path}.from_x_m")
         b = span if v["to_x_m"] is None else _within(v["to_x_m"], span, file, f"{path}.to_x_m")
@@ -782,7 +784,8 @@ def _load(table: Any, geometry: Geometry, file: str, path: str) -> Load:
         raise CaseError(file, f"{path}.loads_kN", f"expected one load per axle offset ({len(offsets)}), got {len(weights)}")
     if offsets[0] != 0.0 or any(b < a for a, b in zip(offsets, offsets[1:], strict=False)):
         raise CaseError(file, f"{path}.offsets_m", "expected offsets starting at 0 and never decreasing")
-    train = AxleTrain(offsets, weights, v["step_m"], TrainDirection(v["direction"]))
+    train = AxleTrain(offsets, weights, v["step_m"], TrainDirection(v["direction"]),
+                      None if v["spread_slope"] is None else FillSpread(v["spread_slope"]))
     positions = len(train.positions(span))
     if positions > MAX_TRAIN_POSITIONS:
         raise CaseError(file, f"{path}.step_m", f"gives {positions} positions; at most {MAX_TRAIN_POSITIONS} are allowed (use a larger step)")
@@ -809,6 +812,22 @@ def _cases(raw: Any, geometry: Geometry, file: str) -> tuple[LoadCase, ...]:
         if sum(isinstance(ld, AxleTrain) for ld in loads) > 1:
             raise CaseError(file, f"{path}.loads", "at most one axle_train per load case")
         out.append(LoadCase(head["name"], loads, ActionKind(head["action"]), head["description"]))
+    return _with_spread_fill(tuple(out), file)
+
+
+def _with_spread_fill(cases: tuple[LoadCase, ...], file: str) -> tuple[LoadCase, ...]:
+    """Loads spread through the fill take the first permanent fill's surface as the road."""
+    fills = [ld for c in cases if c.action is ActionKind.PERMANENT for ld in c.loads if isinstance(ld, FillLoad)]
+    out = []
+    for i, c in enumerate(cases):
+        loads = list(c.loads)
+        for j, ld in enumerate(loads):
+            if isinstance(ld, PointLoad | AxleTrain) and ld.spread is not None:
+                if not fills:
+                    raise CaseError(file, f"cases[{i}].loads[{j}].spread_slope", "needs a fill load (type = "
+                                    "\"fill\") in a permanent case: its surface is the road the load stands on")
+                loads[j] = replace(ld, spread=replace(ld.spread, fill=fills[0]))
+        out.append(replace(c, loads=tuple(loads)))
     return tuple(out)
 
 

@@ -29,12 +29,24 @@ _G2_T = np.array([0.5 - 0.5 / np.sqrt(3.0), 0.5 + 0.5 / np.sqrt(3.0)])  # 2-poin
 
 # ----------------------------------------------------------------------------------- load kinds
 @dataclass(frozen=True)
+class FillSpread:
+    """A surface load spread through a fill to the ring: ``slope`` metres horizontally per metre of depth
+    on each side of it, the depth measured from ``fill``'s surface down to the extrados (vertically)."""
+
+    slope: float
+    fill: FillLoad | None = None  # the case's permanent fill; set when the case file is read
+
+
+@dataclass(frozen=True)
 class PointLoad:
-    """A concentrated force on the axis at abscissa ``x_m`` (m): ``down_kN`` and ``right_kN`` (kN)."""
+    """A concentrated force at abscissa ``x_m`` (m): ``down_kN`` and ``right_kN`` (kN), on the axis, or
+    on the road surface and spread through the fill to the ring (``spread``) as a uniform load over
+    2 slope depth, centred under it (the part beyond a springing goes to the abutment)."""
 
     x_m: float
     down_kN: float = 0.0
     right_kN: float = 0.0
+    spread: FillSpread | None = None
 
 
 @dataclass(frozen=True)
@@ -122,6 +134,7 @@ class AxleTrain:
     loads_kN: tuple[float, ...]
     step_m: float
     direction: TrainDirection = TrainDirection.BOTH
+    spread: FillSpread | None = None  # the axles stand on the road and spread through the fill (`PointLoad`)
 
     def positions(self, span_m: float) -> list[tuple[float, str]]:
         """Leading-axle positions (m, along the direction of travel) with their direction tag."""
@@ -145,7 +158,7 @@ class AxleTrain:
             if -1e-9 * span_m <= travel <= span_m * (1 + 1e-9):
                 travel = min(max(travel, 0.0), span_m)
                 x = travel if tag == "ltr" else span_m - travel
-                out.append(PointLoad(x_m=x, down_kN=p))
+                out.append(PointLoad(x_m=x, down_kN=p, spread=self.spread))
         return out
 
 
@@ -529,6 +542,39 @@ def _fill_level(load: FillLoad, axis: Axis, section: SectionAlong) -> np.ndarray
     return axis.y.copy()
 
 
+def fill_surface(load: FillLoad, axis: Axis, section: SectionAlong) -> float:
+    """Level of the fill's surface (m): given, or its cover above the highest point of its reference line."""
+    if load.surface_y_m is not None:
+        return float(load.surface_y_m)
+    return float(np.max(_fill_level(load, axis, section))) + float(load.cover_m or 0.0)
+
+
+def spread_density(point: PointLoad, axis: Axis, section: SectionAlong) -> np.ndarray | None:
+    """Densities (elements, 2, 2) of a point load spread through the fill (`PointLoad`), or None where it
+    reaches the ring as a point (no spread, or no fill above the extrados under it)."""
+    spread = point.spread
+    if spread is None or spread.fill is None:
+        return None
+    cos = np.maximum(np.abs(np.cos(axis.theta)), 1e-6)
+    extrados = axis.y + 0.5 * section.depth_m / cos
+    depth = fill_surface(spread.fill, axis, section) - float(np.interp(point.x_m, axis.x, extrados))
+    width = 2.0 * spread.slope * depth
+    if not width > 1e-9 * axis.span_m:
+        return None
+    a, b = point.x_m - 0.5 * width, point.x_m + 0.5 * width
+    lo, hi = max(a, 0.0), min(b, axis.span_m)
+    out = np.zeros((axis.count - 1, 2, 2))
+    if not hi > lo:
+        return out
+    ones = np.ones(axis.count - 1)
+    for comp, force in ((1, -point.down_kN), (0, point.right_kN)):
+        if force:
+            fa, fb = _ranged_density(axis, lo, hi, force / width, force / width, ones)
+            out[:, 0, comp] += fa
+            out[:, 1, comp] += fb
+    return out
+
+
 def case_station_loads(case: LoadCase, axis: Axis, section: SectionAlong) -> StationLoads:
     """The states of one load case on ``axis``: one state, or one per position of its axle train."""
     elements = axis.count - 1
@@ -559,15 +605,20 @@ def case_station_loads(case: LoadCase, axis: Axis, section: SectionAlong) -> Sta
         ]
     count = len(states)
     ps, px, pf = [], [], []
+    per_state = np.broadcast_to(dist, (count,) + dist.shape).copy()
     for k, (_, points) in enumerate(states):
         for pt in points:
+            spread = spread_density(pt, axis, section)
+            if spread is not None:
+                per_state[k] += spread
+                continue
             ps.append(k)
             px.append(pt.x_m)
             pf.append((pt.right_kN, -pt.down_kN))
     return StationLoads(
         names=tuple(s[0] for s in states),
         groups=(case.name,) * count,
-        dist=np.broadcast_to(dist, (count,) + dist.shape).copy(),
+        dist=per_state,
         point_state=np.asarray(ps, dtype=int),
         point_x=np.asarray(px, dtype=float),
         point_force=np.asarray(pf, dtype=float).reshape(-1, 2),

@@ -530,6 +530,13 @@ COMBINATIONS = Table(
 _X_FROM = Key("from_x_m", "number", "Start of the loaded length.", "m", default=None)
 _X_TO = Key("to_x_m", "number", "End of the loaded length.", "m", default=None)
 
+_SPREAD = Key("spread_slope", "number", "The load stands on the road surface and spreads through the fill to "
+              "the extrados at this many metres horizontally per metre of depth on each side (0.5: 2 vertical to 1 "
+              "horizontal, an example of common practice, no source); it reaches the ring as a uniform load over "
+              "2 x slope x depth, the part beyond a springing going to the abutment. Needs a fill load in a "
+              "permanent case (its surface is the road). Not given: the load acts on the axis.", default=None,
+              minimum=0.0, maximum=2.0)
+
 LOAD_TYPES: dict[str, Table] = {
     "point": Table(
         "cases.loads (type = \"point\")",
@@ -540,6 +547,7 @@ LOAD_TYPES: dict[str, Table] = {
                 minimum=-MAX_LOAD, maximum=MAX_LOAD),
             Key("right_kN", "number", "Horizontal component, positive to the right.", "kN", default=0.0,
                 minimum=-MAX_LOAD, maximum=MAX_LOAD),
+            _SPREAD,
         ),
     ),
     "line": Table(
@@ -616,6 +624,7 @@ LOAD_TYPES: dict[str, Table] = {
             Key("loads_kN", "numbers", "Axle loads, downward.", "kN", minimum=-MAX_LOAD, maximum=MAX_LOAD),
             Key("step_m", "number", "Step of the leading axle between positions.", "m", positive=True),
             Key("direction", TrainDirection, "Direction of travel.", default=TrainDirection.BOTH.value),
+            _SPREAD,
         ),
     ),
 }

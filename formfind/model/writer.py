@@ -70,7 +70,8 @@ def _load(load: Load) -> dict[str, Any]:
     spec = schema.LOAD_TYPES[kind]
     out: dict[str, Any] = {"type": kind}
     if isinstance(load, PointLoad):
-        values = {"x_m": load.x_m, "down_kN": load.down_kN, "right_kN": load.right_kN}
+        values = {"x_m": load.x_m, "down_kN": load.down_kN, "right_kN": load.right_kN,
+                  "spread_slope": None if load.spread is None else load.spread.slope}
     elif isinstance(load, LineLoad):
         values = {"from_x_m": load.from_x_m, "to_x_m": load.to_x_m, "start_kN_m": load.start_kN_m,
                   "end_kN_m": None if load.end_kN_m == load.start_kN_m else load.end_kN_m,
@@ -91,7 +92,7 @@ def _load(load: Load) -> dict[str, Any]:
                   "rotation_right_rad": load.rotation_right_rad}
     else:
         values = {"offsets_m": load.offsets_m, "loads_kN": load.loads_kN, "step_m": load.step_m,
-                  "direction": load.direction}
+                  "direction": load.direction, "spread_slope": None if load.spread is None else load.spread.slope}
     for name, value in values.items():
         _put(out, spec, name, value)
     return out
