@@ -132,6 +132,16 @@ def test_collapse_factor_equals_the_virtual_work_of_its_own_mechanism(load_x):
     assert upper == pytest.approx(res.factor, rel=1e-6)
 
 
+def _segment_with_a_point_load(stations: int, depth: float):
+    """A segmental ring (8 m span, 2.5 m rise) under its own weight (20 kN/m3) and 10 kN at 2.2 m."""
+    curve = CircularSegment(Chord(8.0), 2.5)
+    axis = Axis.from_curve(curve, place_stations(curve, stations))
+    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6, unit_weight_kN_m3=20.0).at(axis)
+    dead = voussoir_weight(axis, depth, 1.0, 20.0)
+    live = case_station_loads(LoadCase("p", (PointLoad(2.2 + 1e-3, 10.0),)), axis, sec)
+    return axis, sec, dead, live
+
+
 @pytest.mark.parametrize("strength", [2e4, 5e3, 1e3])
 def test_with_finite_strength_the_collapse_factor_is_the_virtual_work_of_the_inset_mechanism(strength):
     """Finite compressive strength f (kN/m2): the hinges turn about the middle of a stress block
@@ -139,12 +149,8 @@ def test_with_finite_strength_the_collapse_factor_is_the_virtual_work_of_the_ins
     still holds for the ring with its faces moved in: the mechanism through the inset hinge points,
     by virtual work, gives the program's factor (1e-6: the cutting planes stop at 1e-7 of the moment
     capacity). Weaker masonry collapses sooner."""
-    span, rise, depth = 8.0, 2.5, 0.3
-    curve = CircularSegment(Chord(span), rise)
-    axis = Axis.from_curve(curve, place_stations(curve, 161))
-    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6, unit_weight_kN_m3=20.0).at(axis)
-    dead = voussoir_weight(axis, depth, 1.0, 20.0)
-    live = case_station_loads(LoadCase("p", (PointLoad(2.2 + 1e-3, 10.0),)), axis, sec)
+    depth = 0.3
+    axis, sec, dead, live = _segment_with_a_point_load(161, depth)
     rigid = collapse_factors(axis, dead, live, sec.depth_m)[0]
     res = collapse_factors(axis, dead, live, sec.depth_m, strength_kN_m2=strength)[0]
     assert 0 < res.factor < rigid.factor
@@ -159,12 +165,7 @@ def test_with_finite_strength_the_collapse_factor_is_the_virtual_work_of_the_ins
 def test_as_the_strength_grows_the_collapse_factor_tends_to_the_rigid_block_one_as_one_over_f():
     """The stress block's depth is N / (f b), so the loss of factor falls as 1 / f: doubling a large f
     halves it (within 1 %), and at 1e6 kN/m2 the factor is the rigid-block one within 1e-3."""
-    span, rise, depth = 8.0, 2.5, 0.3
-    curve = CircularSegment(Chord(span), rise)
-    axis = Axis.from_curve(curve, place_stations(curve, 81))
-    sec = Section.rectangle(1.0, depth, elastic_modulus_kN_m2=1e6, unit_weight_kN_m3=20.0).at(axis)
-    dead = voussoir_weight(axis, depth, 1.0, 20.0)
-    live = case_station_loads(LoadCase("p", (PointLoad(2.2 + 1e-3, 10.0),)), axis, sec)
+    axis, sec, dead, live = _segment_with_a_point_load(81, 0.3)
     rigid = collapse_factors(axis, dead, live, sec.depth_m)[0].factor
     loss = [rigid - collapse_factors(axis, dead, live, sec.depth_m, strength_kN_m2=f)[0].factor for f in (1e5, 2e5)]
     assert loss[0] / loss[1] == pytest.approx(2.0, rel=0.01)
