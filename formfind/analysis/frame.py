@@ -18,11 +18,11 @@ movements as prescribed displacements.
 Axially rigid rib (``axially_rigid``). Each element's chord length is held by a constraint (its
 elongation is zero, or the free thermal elongation alpha T L) with a Lagrange multiplier, the element's
 axial force, as one more unknown per element: the stiffness becomes the saddle-point matrix
-[[K, C^T], [C, 0]] (its multipliers after the nodal dofs, always free). The element's own E A stays in
-K, where at the solution it carries nothing (the constrained elongation is its free elongation), so the
-matrix keeps the conditioning of the elastic rib: the classical inextensional assumptions without the
-digits a huge area would cost. Since the constrained E A does no work, the model holds a stand-in
-12 E I / L^2 per element (the element's own transverse stiffness), which keeps K balanced.
+[[K, C^T], [C, 0]] (its multipliers after the nodal dofs, always free). K then holds no axial
+stiffness at all (E A would only carry thermal terms that cancel), and the nodal dofs are scaled as if
+each element had an axial stiffness equal to its transverse one, 12 E I / L^3, so the matrix keeps the
+conditioning of the elastic rib: the classical inextensional assumptions without the digits a huge
+area would cost.
 
 Solving. The stiffness is factorised once (sparse LU of the symmetrically scaled matrix). One solve
 with at most seven right-hand sides then gives `ResponseMaps`: linear functionals from a load state to
@@ -137,7 +137,7 @@ class FrameModel:
             multiplier of element e is dof ``first_multiplier + e``, its axial force (kN, tension +).
         element_dofs: (elements, 6) global dof indices of each element's ends.
         length, cos, sin: chord length (m) and direction of each element.
-        EA, EI, GAs: element stiffnesses (kN, kNm2, kN); for a rigid rib EA is the stand-in 12 EI / L^2.
+        EA, EI, GAs: element stiffnesses (kN, kNm2, kN); for a rigid rib EA is 0 (the constraints hold the lengths).
         stiffness: the full global stiffness matrix (CSC); for a rigid rib the saddle-point matrix.
         free, fixed: indices of free and restrained dofs (a rigid rib's multipliers are free).
     """
